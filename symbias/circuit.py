@@ -1,0 +1,434 @@
+"""The Circuit: parsed, validated, immutable description of a netlist.
+
+Second step of the text side (``netlist`` text -> :class:`Circuit`).  A
+circuit holds data only; analyses are free functions in other modules that
+take a circuit.  Every "edit" (:meth:`Circuit.without`, :meth:`Circuit.replace_element`)
+returns a new circuit.
+
+Element kinds and their node order (SPICE element letters):
+
+====  ==========================  ===================================
+kind  nodes                       value
+====  ==========================  ===================================
+R     n1 n2                       resistance
+C     n1 n2                       capacitance
+L     n1 n2                       inductance
+V     n+ n-                       DC value (zeroed in small-signal work)
+I     n+ n-                       DC value, flows n+ -> through source -> n-
+G     n+ n- nc+ nc-               transconductance, i(n+ -> n-) = g v(nc+, nc-)
+E     n+ n- nc+ nc-               voltage gain
+F     n+ n-  (control: V name)    current gain, i(n+ -> n-) = f i(Vctrl)
+H     n+ n-  (control: V name)    transresistance
+Q     c b e [s]                   model name; ``area``, ``m`` parameters
+M     d g s b                     model name; ``w``, ``l``, ``m`` parameters
+====  ==========================  ===================================
+
+Examples
+--------
+>>> from symbias.netlist import parse_netlist
+>>> c = parse_netlist("divider\\nV1 in 0 1\\nR1 in out 1k\\nR2 out 0 1k\\n")
+>>> c.nodes
+('0', 'in', 'out')
+>>> c.element("r2").value
+1000
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field, replace
+from types import MappingProxyType
+from typing import Mapping
+
+import sympy
+
+from .errors import CircuitError
+
+__all__ = [
+    "Element",
+    "Model",
+    "Circuit",
+    "GROUND",
+    "TERMINALS",
+    "DEVICE_KINDS",
+    "MODEL_KINDS",
+    "validate",
+    "CircuitWarning",
+]
+
+GROUND = "0"
+
+#: Number of nodes each element kind takes (Q takes 3 or 4).
+TERMINALS: dict[str, tuple[int, ...]] = {
+    "R": (2,), "C": (2,), "L": (2,), "V": (2,), "I": (2,),
+    "G": (4,), "E": (4,), "F": (2,), "H": (2,), "Q": (3, 4), "M": (4,),
+}
+
+#: Element kinds that refer to a ``.model``.
+DEVICE_KINDS = {"Q": ("npn", "pnp"), "M": ("nmos", "pmos")}
+
+#: Model types symbias understands, by element letter.
+MODEL_KINDS = {"npn": "Q", "pnp": "Q", "nmos": "M", "pmos": "M"}
+
+
+class CircuitWarning(UserWarning):
+    """A circuit is usable but probably not what was meant (e.g. a dangling node)."""
+
+
+def _frozen_mapping(data: Mapping | None) -> Mapping:
+    return MappingProxyType(dict(data or {}))
+
+
+@dataclass(frozen=True)
+class Element:
+    """One circuit element as written in the netlist.
+
+    Parameters
+    ----------
+    name : str
+        Element name as written, e.g. ``"Q1"``; its first letter is the kind.
+    kind : str
+        Upper-case SPICE letter (``R``, ``Q``, ...).
+    nodes : tuple of str
+        Node names (lower case, ground is ``"0"``) in the order of the table above.
+    value : sympy.Expr or None
+        Primary value: resistance, capacitance, DC value, gain. None for devices.
+    control : str or None
+        Controlling voltage source of an F or H element.
+    model : str or None
+        Model name of a Q or M element.
+    params : mapping
+        Instance parameters, lower-case keys (``area``, ``m``, ``w``, ``l``, ``ac``).
+    line : int
+        Line of the netlist it came from (0 when built in code).
+    """
+
+    name: str
+    kind: str
+    nodes: tuple[str, ...]
+    value: sympy.Expr | None = None
+    control: str | None = None
+    model: str | None = None
+    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    line: int = 0
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "params", _frozen_mapping(self.params))
+        object.__setattr__(self, "nodes", tuple(self.nodes))
+        if self.kind not in TERMINALS:
+            raise CircuitError(f"unknown element kind {self.kind!r} for {self.name}", line=self.line)
+        if len(self.nodes) not in TERMINALS[self.kind]:
+            wanted = " or ".join(str(n) for n in TERMINALS[self.kind])
+            raise CircuitError(
+                f"{self.name}: expected {wanted} nodes, got {len(self.nodes)}", line=self.line
+            )
+
+    @property
+    def key(self) -> str:
+        """Case-insensitive identity of the element (SPICE names ignore case)."""
+        return self.name.lower()
+
+    @property
+    def multiplier(self) -> sympy.Expr:
+        """Parallel-device multiplier: ``m`` times ``area`` (BJT), 1 if absent."""
+        factor = sympy.Integer(1)
+        for key in ("m", "area"):
+            if key in self.params:
+                factor = factor * self.params[key]
+        return factor
+
+    def __reduce__(self):  # MappingProxyType does not pickle
+        return (
+            Element,
+            (self.name, self.kind, self.nodes, self.value, self.control, self.model, dict(self.params), self.line),
+        )
+
+
+@dataclass(frozen=True)
+class Model:
+    """A ``.model`` card: name, type (npn, pnp, nmos, pmos, ...) and parameters.
+
+    Parameter keys are upper case (``BF``, ``VAF``, ``VTO``); unknown ones are kept.
+    """
+
+    name: str
+    type: str
+    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    line: int = 0
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "params", _frozen_mapping(self.params))
+
+    @property
+    def key(self) -> str:
+        return self.name.lower()
+
+    @property
+    def polarity(self) -> int:
+        """+1 for npn/nmos, -1 for pnp/pmos, 0 for other types."""
+        return {"npn": 1, "nmos": 1, "pnp": -1, "pmos": -1}.get(self.type, 0)
+
+    def __reduce__(self):
+        return (Model, (self.name, self.type, dict(self.params), self.line))
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """An immutable circuit: title, elements, models, parameters, matched groups.
+
+    Parameters
+    ----------
+    title : str
+        First line of the netlist.
+    elements : tuple of Element
+        In netlist order.
+    models : mapping of str to Model
+        Keyed by lower-case model name.
+    params : mapping of str to sympy.Expr
+        ``.param`` values (lower-case keys), already substituted into elements.
+    groups : mapping of str to tuple of str
+        Declared matched groups (``.match NAME Q1 Q2 ...``), element keys.
+    path : str or None
+        File it was read from, for error messages.
+    """
+
+    title: str
+    elements: tuple[Element, ...]
+    models: Mapping[str, Model] = field(default_factory=dict)
+    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    groups: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
+    path: str | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "elements", tuple(self.elements))
+        object.__setattr__(self, "models", _frozen_mapping(self.models))
+        object.__setattr__(self, "params", _frozen_mapping(self.params))
+        object.__setattr__(self, "groups", _frozen_mapping({k: tuple(v) for k, v in dict(self.groups).items()}))
+        seen: dict[str, Element] = {}
+        for element in self.elements:
+            if element.key in seen:
+                raise CircuitError(
+                    f"duplicate element name {element.name!r} (first on line {seen[element.key].line})",
+                    path=self.path,
+                    line=element.line,
+                )
+            seen[element.key] = element
+
+    def __reduce__(self):
+        return (
+            Circuit,
+            (self.title, self.elements, dict(self.models), dict(self.params), dict(self.groups), self.path),
+        )
+
+    # -- lookups -------------------------------------------------------------
+    @property
+    def nodes(self) -> tuple[str, ...]:
+        """All node names, ground first if present, then in order of appearance."""
+        order: dict[str, None] = {}
+        for element in self.elements:
+            for node in element.nodes:
+                order.setdefault(node, None)
+        names = list(order)
+        if GROUND in order:
+            names.remove(GROUND)
+            names.insert(0, GROUND)
+        return tuple(names)
+
+    def has_element(self, name: str) -> bool:
+        """True when an element of that name (any case) exists."""
+        return any(e.key == name.lower() for e in self.elements)
+
+    def element(self, name: str) -> Element:
+        """The element called ``name`` (case-insensitive).
+
+        Raises
+        ------
+        CircuitError
+            If there is no such element.
+        """
+        for element in self.elements:
+            if element.key == name.lower():
+                return element
+        raise CircuitError(f"no element named {name!r}", path=self.path)
+
+    def elements_of(self, *kinds: str) -> tuple[Element, ...]:
+        """Elements whose kind is one of ``kinds``, in netlist order."""
+        return tuple(e for e in self.elements if e.kind in kinds)
+
+    @property
+    def devices(self) -> tuple[Element, ...]:
+        """Transistors (Q and M elements)."""
+        return self.elements_of("Q", "M")
+
+    def model_of(self, element: Element) -> Model:
+        """The ``.model`` a device refers to."""
+        model = self.models.get((element.model or "").lower())
+        if model is None:
+            raise CircuitError(f"{element.name}: undefined model {element.model!r}", path=self.path, line=element.line)
+        return model
+
+    # -- edits return new circuits ------------------------------------------
+    def without(self, *names: str) -> "Circuit":
+        """A copy with the named elements removed."""
+        drop = {n.lower() for n in names}
+        return replace(self, elements=tuple(e for e in self.elements if e.key not in drop))
+
+    def with_elements(self, *elements: Element) -> "Circuit":
+        """A copy with ``elements`` appended."""
+        return replace(self, elements=self.elements + tuple(elements))
+
+    def replace_element(self, element: Element) -> "Circuit":
+        """A copy with the element of the same name replaced by ``element``."""
+        return replace(self, elements=tuple(element if e.key == element.key else e for e in self.elements))
+
+    # -- graph view ------------------------------------------------------------
+    def graph(self):
+        """A networkx MultiGraph: nodes are circuit nodes, one edge per terminal pair.
+
+        Two-terminal elements give one edge; controlled sources give an edge
+        between their output nodes only (the control side draws no current);
+        transistors give an edge from their first terminal to each other one.
+        Each edge carries ``element`` (the name) and ``kind``.
+        """
+        import networkx as nx
+
+        graph = nx.MultiGraph()
+        graph.add_nodes_from(self.nodes)
+        for element in self.elements:
+            for a, b in _conducting_pairs(element):
+                graph.add_edge(a, b, element=element.name, kind=element.kind)
+        return graph
+
+
+def _conducting_pairs(element: Element) -> list[tuple[str, str]]:
+    nodes = element.nodes
+    if element.kind in ("Q", "M"):
+        # the substrate (4th BJT node) couples only through ccs; bulk through junctions
+        return [(nodes[0], n) for n in nodes[1:]]
+    return [(nodes[0], nodes[1])]
+
+
+def validate(circuit: Circuit) -> tuple[str, ...]:
+    """Check a circuit for structural faults; return warnings, raise on errors.
+
+    Errors (:class:`CircuitError`, with the offending line): no ground node; a
+    part of the circuit with no connection to ground; a device with an
+    undefined model or a model of the wrong type; a controlled source whose
+    controlling voltage source does not exist; a loop of voltage sources (V, E,
+    H and inductors at DC); a cut set of current sources (a group of nodes
+    reached only through current sources).  Warnings (returned and also issued
+    as :class:`CircuitWarning`): a node with a single connection.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> validate(parse_netlist("t\\nI1 0 a 1m\\nR1 a 0 1k\\n"))
+    ()
+    """
+    import networkx as nx
+
+    path = circuit.path
+    if not circuit.elements:
+        raise CircuitError("the circuit has no elements", path=path, line=1)
+    if GROUND not in circuit.nodes:
+        raise CircuitError("no ground node (node 0 or gnd)", path=path, line=circuit.elements[0].line)
+
+    for element in circuit.elements:
+        if element.kind in DEVICE_KINDS:
+            model = circuit.models.get((element.model or "").lower())
+            if model is None:
+                raise CircuitError(f"{element.name}: undefined model {element.model!r}", path=path, line=element.line)
+            if model.type not in DEVICE_KINDS[element.kind]:
+                raise CircuitError(
+                    f"{element.name}: model {model.name!r} is of type {model.type}, "
+                    f"expected {' or '.join(DEVICE_KINDS[element.kind])}",
+                    path=path,
+                    line=element.line,
+                )
+        if element.kind in ("F", "H"):
+            control = element.control or ""
+            if not circuit.has_element(control) or circuit.element(control).kind != "V":
+                raise CircuitError(
+                    f"{element.name}: controlling voltage source {control!r} does not exist",
+                    path=path,
+                    line=element.line,
+                )
+        if element.kind in ("G", "E"):
+            pass  # the control nodes only need to exist, which they do by construction
+
+    graph = circuit.graph()
+    # control-only nodes (e.g. a sense node of a G element) still need a DC path
+    for component in nx.connected_components(graph):
+        if GROUND not in component:
+            culprit = _first_element_touching(circuit, component)
+            raise CircuitError(
+                f"node(s) {', '.join(sorted(component))} have no connection to ground",
+                path=path,
+                line=culprit.line if culprit else None,
+            )
+
+    _check_voltage_loops(circuit)
+    _check_current_cutsets(circuit)
+
+    notes = []
+    degree: dict[str, int] = {n: 0 for n in circuit.nodes}
+    for element in circuit.elements:
+        for node in element.nodes:
+            degree[node] += 1
+    for node, count in degree.items():
+        if count == 1 and node != GROUND:
+            culprit = _first_element_touching(circuit, {node})
+            message = f"node {node!r} has a single connection ({culprit.name})"
+            notes.append(message)
+            warnings.warn(f"{path or '<input>'}:{culprit.line}: {message}", CircuitWarning, stacklevel=2)
+    return tuple(notes)
+
+
+def _first_element_touching(circuit: Circuit, nodes) -> Element | None:
+    for element in circuit.elements:
+        if any(n in nodes for n in element.nodes):
+            return element
+    return None
+
+
+def _check_voltage_loops(circuit: Circuit) -> None:
+    import networkx as nx
+
+    forest = nx.Graph()
+    forest.add_nodes_from(circuit.nodes)
+    for element in circuit.elements:
+        if element.kind not in ("V", "E", "H", "L"):
+            continue
+        a, b = element.nodes[0], element.nodes[1]
+        if a == b or nx.has_path(forest, a, b):
+            raise CircuitError(
+                f"{element.name} closes a loop of voltage sources (and inductors)",
+                path=circuit.path,
+                line=element.line,
+            )
+        forest.add_edge(a, b)
+
+
+def _check_current_cutsets(circuit: Circuit) -> None:
+    import networkx as nx
+
+    graph = nx.Graph()
+    graph.add_nodes_from(circuit.nodes)
+    for element in circuit.elements:
+        if element.kind in ("I", "G", "F"):
+            continue
+        for a, b in _conducting_pairs(element):
+            graph.add_edge(a, b)
+    for component in nx.connected_components(graph):
+        if GROUND in component:
+            continue
+        culprit = next(
+            (e for e in circuit.elements if e.kind in ("I", "G", "F") and any(n in component for n in e.nodes[:2])),
+            None,
+        )
+        raise CircuitError(
+            f"node(s) {', '.join(sorted(component))} are reached only through current sources "
+            f"({culprit.name if culprit else 'current sources'}): a cut set of current sources",
+            path=circuit.path,
+            line=culprit.line if culprit else None,
+        )

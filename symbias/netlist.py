@@ -1,0 +1,449 @@
+"""Read and write netlist text (the SPICE subset documented in docs/netlist.md).
+
+First step of the text side: text -> :class:`~symbias.circuit.Circuit`.
+Line numbers are kept on every element so later errors can point at them.
+
+Grammar in short: the first line is the title; ``*`` starts a comment line,
+``;`` an end-of-line comment; a line starting with ``+`` continues the
+previous one; element lines start with their SPICE letter (R C L V I G E F H
+Q M X); dot cards ``.model``, ``.param``, ``.subckt``/``.ends``, ``.match``
+(a symbias extension declaring matched devices) and ``.end``; simulator
+control cards (``.op``, ``.dc``, ``.tran``, ``.options`` ...) are ignored.
+
+Examples
+--------
+>>> c = parse_netlist('''simple mirror
+... Iref 0 in 100u
+... Q1 in in 0 QN
+... Q2 out in 0 QN
+... Vout out 0 1
+... .model QN npn (BF=100 VAF=50)
+... ''')
+>>> [e.name for e in c.devices], c.models["qn"].params["BF"]
+(['Q1', 'Q2'], 100)
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import sympy
+
+from .circuit import GROUND, MODEL_KINDS, TERMINALS, Circuit, Element, Model, validate
+from .errors import CircuitError, NetlistError, SymbiasError
+from .expressions import parse_expression, parse_value
+
+__all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
+
+_IGNORED_CARDS = {
+    ".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".options", ".option", ".print", ".plot", ".probe",
+    ".save", ".control", ".endc", ".temp", ".meas", ".measure", ".ic", ".nodeset", ".global", ".lib",
+    ".include", ".inc", ".width", ".sens", ".four", ".func", ".csparam",
+}
+
+
+@dataclass(frozen=True)
+class Line:
+    """One logical netlist line: its tokens and the physical line it started on."""
+
+    number: int
+    text: str
+
+
+def _logical_lines(text: str) -> tuple[str, list[Line]]:
+    raw = text.splitlines()
+    if not raw:
+        raise NetlistError("empty netlist: the first line must be a title", line=1)
+    title = raw[0].strip()
+    lines: list[Line] = []
+    in_control = False
+    for number, physical in enumerate(raw[1:], start=2):
+        stripped = physical.strip()
+        low = stripped.lower()
+        if low.startswith(".control"):
+            in_control = True
+            continue
+        if in_control:
+            if low.startswith(".endc"):
+                in_control = False
+            continue
+        if not stripped or stripped.startswith("*"):
+            continue
+        stripped = stripped.split(";", 1)[0].split(" $ ", 1)[0].rstrip()
+        if not stripped:
+            continue
+        if stripped.startswith("+"):
+            if not lines:
+                raise NetlistError("continuation line '+' with nothing to continue", line=number)
+            last = lines[-1]
+            lines[-1] = Line(last.number, last.text + " " + stripped[1:].strip())
+            continue
+        lines.append(Line(number, stripped))
+    return title, lines
+
+
+_TOKEN = re.compile(r"\{[^}]*\}?|'[^']*'?|[^\s,()=]+|=")
+
+
+def _tokens(text: str) -> list[str]:
+    """Split on blanks, commas and parentheses; keep ``{...}`` and ``=`` whole."""
+    return _TOKEN.findall(text)
+
+
+def _split_params(tokens: list[str], line: int) -> tuple[list[str], dict[str, str]]:
+    """Separate positional tokens from ``name=value`` pairs."""
+    positional: list[str] = []
+    named: dict[str, str] = {}
+    i = 0
+    while i < len(tokens):
+        if i + 1 < len(tokens) and tokens[i + 1] == "=":
+            if i + 2 >= len(tokens):
+                raise NetlistError(f"parameter {tokens[i]!r} has no value after '='", line=line)
+            named[tokens[i].lower()] = tokens[i + 2]
+            i += 3
+            continue
+        if tokens[i] == "=":
+            raise NetlistError("'=' without a parameter name", line=line)
+        if named:
+            raise NetlistError(f"positional value {tokens[i]!r} after name=value parameters", line=line)
+        positional.append(tokens[i])
+        i += 1
+    return positional, named
+
+
+def _node(name: str) -> str:
+    low = name.lower()
+    return GROUND if low in ("0", "gnd") else low
+
+
+def _value(text: str, names, line: int) -> sympy.Expr:
+    try:
+        return parse_value(text, names)
+    except NetlistError as err:
+        raise NetlistError(err.reason, line=line) from None
+
+
+@dataclass
+class _Subckt:
+    name: str
+    ports: list[str]
+    defaults: dict[str, str]
+    body: list[Line]
+    line: int
+
+
+def parse_netlist(text: str, path: str | None = None, *, check: bool = True) -> Circuit:
+    """Parse netlist text into a :class:`Circuit`.
+
+    Parameters
+    ----------
+    text : str
+        The netlist; the first line is the title.
+    path : str, optional
+        File name used in error messages.
+    check : bool, default True
+        Run :func:`~symbias.circuit.validate` on the result.
+
+    Raises
+    ------
+    NetlistError
+        On a syntax or value error, with ``path`` and ``line`` set.
+    CircuitError
+        On a structural fault found by validation.
+    """
+    try:
+        return _parse(text, path, check)
+    except SymbiasError as err:
+        raise err.located(path) from None
+
+
+def read_netlist(path: str | Path, *, check: bool = True) -> Circuit:
+    """Read and parse a netlist file.
+
+    Raises
+    ------
+    NetlistError
+        If the file cannot be read or parsed.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        raise NetlistError(f"cannot read netlist: {getattr(err, 'strerror', None) or err}", path=str(path)) from None
+    return parse_netlist(text, str(path), check=check)
+
+
+def _parse(text: str, path: str | None, check: bool) -> Circuit:
+    title, lines = _logical_lines(text)
+
+    # pass 1: pull out subcircuit bodies, models and params (params in order)
+    top: list[Line] = []
+    subckts: dict[str, _Subckt] = {}
+    current: _Subckt | None = None
+    models: dict[str, Model] = {}
+    params: dict[str, sympy.Expr] = {}
+    groups: dict[str, tuple[str, ...]] = {}
+    for line in lines:
+        low = line.text.lower()
+        if low.startswith(".subckt"):
+            if current is not None:
+                raise NetlistError("nested .subckt definitions are not supported", line=line.number)
+            tokens = _tokens(line.text)
+            if len(tokens) < 2:
+                raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
+            positional, named = _split_params(tokens[2:], line.number)
+            if positional and positional[-1].lower() == "params:":
+                positional = positional[:-1]
+            positional = [p for p in positional if p.lower() != "params:"]
+            current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
+            continue
+        if low.startswith(".ends"):
+            if current is None:
+                raise NetlistError(".ends without .subckt", line=line.number)
+            subckts[current.name] = current
+            current = None
+            continue
+        if current is not None:
+            if low.startswith(".model"):
+                _add_model(line, models)
+            else:
+                current.body.append(line)
+            continue
+        if low.startswith(".model"):
+            _add_model(line, models)
+        elif low.startswith(".param"):
+            _add_params(line, params)
+        elif low.startswith(".match"):
+            tokens = _tokens(line.text)
+            if len(tokens) < 3:
+                raise NetlistError(".match needs a group name and at least one device", line=line.number)
+            groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
+        elif low.startswith(".end"):
+            break
+        else:
+            top.append(line)
+    if current is not None:
+        raise NetlistError(f".subckt {current.name} has no .ends", line=current.line)
+
+    elements: list[Element] = []
+    for line in top:
+        if line.text.startswith("."):
+            card = line.text.split()[0].lower()
+            if card in _IGNORED_CARDS:
+                continue
+            raise NetlistError(f"unknown control card {card!r}", line=line.number)
+        elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
+
+    circuit = Circuit(title=title, elements=tuple(elements), models=models, params=params, groups=groups, path=path)
+    for group, members in groups.items():
+        for member in members:
+            if not circuit.has_element(member):
+                raise CircuitError(f".match {group}: no device named {member!r}", path=path)
+    if check:
+        validate(circuit)
+    return circuit
+
+
+def _add_model(line: Line, models: dict[str, Model]) -> None:
+    tokens = _tokens(line.text)
+    if len(tokens) < 3:
+        raise NetlistError(".model needs a name and a type, e.g. '.model QN npn (BF=100)'", line=line.number)
+    name, mtype = tokens[1], tokens[2].lower()
+    positional, named = _split_params(tokens[3:], line.number)
+    if positional:
+        raise NetlistError(f".model {name}: expected NAME=value parameters, got {positional[0]!r}", line=line.number)
+    values = {key.upper(): _value(text, {}, line.number) for key, text in named.items()}
+    if name.lower() in models:
+        raise NetlistError(f"model {name!r} is defined twice (first on line {models[name.lower()].line})", line=line.number)
+    models[name.lower()] = Model(name=name, type=mtype, params=values, line=line.number)
+
+
+def _add_params(line: Line, params: dict[str, sympy.Expr]) -> None:
+    tokens = _tokens(line.text)[1:]
+    positional, named = _split_params(tokens, line.number)
+    if positional or not named:
+        raise NetlistError(".param expects name=value pairs", line=line.number)
+    for key, text in named.items():
+        params[key] = _value(text, params, line.number)
+
+
+def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) -> list[Element]:
+    tokens = _tokens(line.text)
+    name = tokens[0]
+    letter = name[0].upper()
+    if letter == "X":
+        return _instance(line, tokens, params, models, subckts, prefix, mapping, depth)
+    if letter not in TERMINALS:
+        raise NetlistError(f"unknown element letter {letter!r} in {name!r}", line=line.number)
+    element = _element(line, tokens, params, models)
+    if prefix or mapping:
+        element = Element(
+            name=prefix + element.name,
+            kind=element.kind,
+            nodes=tuple(mapping.get(n, n if n == GROUND else prefix.lower() + n) for n in element.nodes),
+            value=element.value,
+            control=(prefix + element.control) if element.control else None,
+            model=element.model,
+            params=element.params,
+            line=element.line,
+        )
+    return [element]
+
+
+def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> list[Element]:
+    if depth > 20:
+        raise NetlistError("subcircuits nested more than 20 deep (recursive definition?)", line=line.number)
+    positional, named = _split_params(tokens[1:], line.number)
+    if not positional:
+        raise NetlistError(f"{tokens[0]}: missing subcircuit name", line=line.number)
+    subname = positional[-1].lower()
+    sub = subckts.get(subname)
+    if sub is None:
+        raise NetlistError(f"{tokens[0]}: undefined subcircuit {positional[-1]!r}", line=line.number)
+    nodes = [_node(n) for n in positional[:-1]]
+    if len(nodes) != len(sub.ports):
+        raise NetlistError(
+            f"{tokens[0]}: subcircuit {sub.name} has {len(sub.ports)} ports, got {len(nodes)} nodes", line=line.number
+        )
+    outer = {k: mapping.get(v, v if v == GROUND else prefix.lower() + v) for k, v in zip([], [])}
+    port_map = {}
+    for port, node in zip(sub.ports, nodes):
+        port_map[_node(port)] = node if node == GROUND else mapping.get(node, (prefix.lower() + node) if prefix else node)
+    local = dict(params)
+    for key, text in sub.defaults.items():
+        local[key] = _value(text, params, sub.line)
+    for key, text in named.items():
+        local[key] = _value(text, params, line.number)
+    inner_prefix = prefix + tokens[0] + "."
+    elements = []
+    for body_line in sub.body:
+        elements.extend(
+            _element_or_instance(
+                Line(line.number, body_line.text), local, models, subckts, inner_prefix, port_map, depth + 1
+            )
+        )
+    del outer
+    return elements
+
+
+def _element(line: Line, tokens: list[str], params, models) -> Element:
+    name = tokens[0]
+    kind = name[0].upper()
+    n = line.number
+    positional, named = _split_params(tokens[1:], n)
+    inst = {k: _value(v, params, n) for k, v in named.items()}
+    if kind in ("R", "C", "L"):
+        if len(positional) != 3:
+            raise NetlistError(f"{name}: expected '{name} node1 node2 value'", line=n)
+        return Element(name, kind, (_node(positional[0]), _node(positional[1])), _value(positional[2], params, n),
+                       params=inst, line=n)
+    if kind in ("V", "I"):
+        if len(positional) < 2:
+            raise NetlistError(f"{name}: expected '{name} node+ node- [DC] value'", line=n)
+        nodes = (_node(positional[0]), _node(positional[1]))
+        rest = positional[2:]
+        value = sympy.Integer(0)
+        i = 0
+        while i < len(rest):
+            word = rest[i].lower()
+            if word == "dc" and i + 1 < len(rest):
+                value = _value(rest[i + 1], params, n)
+                i += 2
+            elif word == "ac" and i + 1 < len(rest):
+                inst["ac"] = _value(rest[i + 1], params, n)
+                i += 2
+                if i < len(rest) and _looks_numeric(rest[i]):
+                    i += 1  # AC phase
+            elif word in ("pulse", "sin", "pwl", "exp", "sffm", "am", "distof1", "distof2"):
+                break  # transient specification: not used by symbias
+            elif i == 0:
+                value = _value(rest[i], params, n)
+                i += 1
+            else:
+                raise NetlistError(f"{name}: unexpected {rest[i]!r}", line=n)
+        return Element(name, kind, nodes, value, params=inst, line=n)
+    if kind in ("G", "E"):
+        if len(positional) != 5:
+            raise NetlistError(f"{name}: expected '{name} n+ n- nc+ nc- value'", line=n)
+        return Element(name, kind, tuple(_node(p) for p in positional[:4]), _value(positional[4], params, n),
+                       params=inst, line=n)
+    if kind in ("F", "H"):
+        if len(positional) != 4:
+            raise NetlistError(f"{name}: expected '{name} n+ n- Vcontrol value'", line=n)
+        return Element(name, kind, (_node(positional[0]), _node(positional[1])), _value(positional[3], params, n),
+                       control=positional[2], params=inst, line=n)
+    if kind == "Q":
+        # Q c b e [s] model [area]: the model is the first token naming a known .model
+        index = next((i for i, t in enumerate(positional) if t.lower() in models and i >= 3), None)
+        if index is None:
+            if len(positional) >= 4:
+                raise NetlistError(f"{name}: undefined model {positional[3]!r}", line=n)
+            raise NetlistError(f"{name}: expected '{name} c b e [s] model [area]'", line=n)
+        if index not in (3, 4):
+            raise NetlistError(f"{name}: expected 3 or 4 nodes before the model, got {index}", line=n)
+        extra = positional[index + 1:]
+        if len(extra) > 1:
+            raise NetlistError(f"{name}: unexpected {extra[1]!r} after the area", line=n)
+        if extra:
+            inst["area"] = _value(extra[0], params, n)
+        return Element(name, kind, tuple(_node(p) for p in positional[:index]), None, model=positional[index],
+                       params=inst, line=n)
+    if kind == "M":
+        if len(positional) != 5:
+            if len(positional) >= 5 and positional[4].lower() not in models:
+                raise NetlistError(f"{name}: undefined model {positional[4]!r}", line=n)
+            raise NetlistError(f"{name}: expected '{name} d g s b model [W=.. L=.. m=..]'", line=n)
+        if positional[4].lower() not in models:
+            raise NetlistError(f"{name}: undefined model {positional[4]!r}", line=n)
+        return Element(name, kind, tuple(_node(p) for p in positional[:4]), None, model=positional[4],
+                       params=inst, line=n)
+    raise NetlistError(f"unknown element letter {kind!r}", line=n)  # pragma: no cover - guarded by caller
+
+
+def _looks_numeric(text: str) -> bool:
+    from .expressions import try_parse_number
+
+    return try_parse_number(text) is not None
+
+
+def _format_value(value: sympy.Expr) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, sympy.Symbol):
+        return value.name
+    if value.is_Number:
+        number = float(value)
+        return repr(int(number)) if number == int(number) and abs(number) < 1e15 else f"{number:.12g}"
+    return "{" + str(value).replace("**", "^") + "}"
+
+
+def format_netlist(circuit: Circuit) -> str:
+    """Write a circuit back as netlist text that :func:`parse_netlist` reads.
+
+    Examples
+    --------
+    >>> c = parse_netlist("t\\nR1 a 0 {2*RE}\\nI1 0 a 1m\\n")
+    >>> print(format_netlist(c).splitlines()[1])
+    R1 a 0 {2*RE}
+    """
+    out = [circuit.title]
+    for element in circuit.elements:
+        parts = [element.name, *element.nodes]
+        if element.kind in ("F", "H"):
+            parts.append(element.control or "")
+        if element.kind in ("Q", "M"):
+            parts.append(element.model or "")
+            parts += [f"{k}={_format_value(v)}" for k, v in element.params.items()]
+        else:
+            parts.append(_format_value(element.value))
+            parts += [f"{k}={_format_value(v)}" for k, v in element.params.items() if k != "ac"]
+        out.append(" ".join(parts))
+    for model in circuit.models.values():
+        params = " ".join(f"{k}={_format_value(v)}" for k, v in model.params.items())
+        out.append(f".model {model.name} {model.type} ({params})")
+    for group, members in circuit.groups.items():
+        out.append(f".match {group} {' '.join(members)}")
+    out.append(".end")
+    return "\n".join(out) + "\n"
