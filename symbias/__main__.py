@@ -1,0 +1,5 @@
+"""``python -m symbias`` runs the command line."""
+
+from .cli import run
+
+run()

@@ -1,0 +1,348 @@
+"""Small-signal quantities of a circuit, each returned as a :class:`~symbias.formula.Formula`.
+
+The analyses wire the steps: circuit -> expanded network -> linear problem
+-> cofactor solve -> formula.  They are pure functions of a circuit.
+
+Sign conventions (SPICE directions):
+
+* An input current source ``I n+ n-`` drives a unit current that flows from
+  ``n+`` through the source to ``n-``, i.e. it is delivered into the circuit
+  at ``n-``.
+* The output current of ``current_gain`` and ``transconductance`` is the
+  current that flows out of the output voltage source's ``+`` terminal into
+  the circuit (minus the SPICE branch current).  For a mirror written as
+  ``Iref vcc in`` and ``Vout out 0`` (NPN) or ``Iref in 0`` and ``Vout out 0``
+  (PNP) the gain is positive.
+* An input voltage source drives a unit voltage ``v(n+) - v(n-)``.
+* Output voltages are ``v(a) - v(b)`` of the named node pair (``b`` is ground
+  for a single node).
+* ``output_resistance`` drives a unit test current into ``a`` and out of
+  ``b`` with every independent source zeroed (V shorted, I open) and returns
+  ``v(a) - v(b)``; when the port is an element it is removed first.
+
+Examples
+--------
+>>> from symbias.netlist import parse_netlist
+>>> mirror = parse_netlist('''simple NPN mirror
+... Iref 0 in 100u
+... Q1 in in 0 QN
+... Q2 out in 0 QN
+... Vout out 0 2
+... .model QN npn (BF=100 VAF=50)
+... ''')
+>>> output_resistance(mirror, "Vout").expr
+ro_Q2
+>>> current_gain(mirror, "Vout", "Iref", SmallSignalOptions(ro=False, match=True, beta=True)).expr
+beta/(beta + 2)
+"""
+
+from __future__ import annotations
+
+from .circuit import GROUND, Circuit, Element
+from .errors import CircuitError
+from .formula import Formula
+from .mna import LinearProblem, solve
+from .network import LinearNetwork, SmallSignalOptions, expand
+
+__all__ = [
+    "SmallSignalOptions",
+    "Port",
+    "parse_port",
+    "output_resistance",
+    "output_impedance",
+    "current_gain",
+    "voltage_gain",
+    "transconductance",
+    "transimpedance",
+    "QUANTITIES",
+]
+
+
+class Port(tuple):
+    """A node pair ``(a, b)`` plus the element removed to open it (or None)."""
+
+    removed: str | None = None
+
+    def __new__(cls, a: str, b: str, removed: str | None = None):
+        port = super().__new__(cls, (a, b))
+        port.removed = removed
+        return port
+
+
+def _node_name(circuit: Circuit, text: str) -> str:
+    name = text.strip().lower()
+    name = GROUND if name in ("0", "gnd") else name
+    if name not in circuit.nodes:
+        raise CircuitError(f"no element or node named {text.strip()!r}", path=circuit.path)
+    return name
+
+
+def parse_port(circuit: Circuit, port: str) -> Port:
+    """Resolve a port given as an element name, a node, or ``"a,b"``.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1\\nR1 a b 1k\\nR2 b 0 1k\\n")
+    >>> parse_port(c, "R1"), parse_port(c, "R1").removed, parse_port(c, "a,b")
+    (('a', 'b'), 'R1', ('a', 'b'))
+    """
+    text = port.strip()
+    if "," in text:
+        a, b = (part for part in text.split(",", 1))
+        return Port(_node_name(circuit, a), _node_name(circuit, b))
+    if circuit.has_element(text):
+        element = circuit.element(text)
+        if len(element.nodes) != 2 or element.kind in ("F", "H"):
+            if element.kind not in ("F", "H"):
+                raise CircuitError(f"port {element.name} must be a two-terminal element", path=circuit.path,
+                                   line=element.line)
+        return Port(element.nodes[0], element.nodes[1], element.name)
+    return Port(_node_name(circuit, text), GROUND)
+
+
+def _source(circuit: Circuit, name: str, kinds: tuple[str, ...], role: str) -> Element:
+    if not circuit.has_element(name):
+        raise CircuitError(f"no {role} source named {name!r}", path=circuit.path)
+    element = circuit.element(name)
+    if element.kind not in kinds:
+        wanted = " or ".join({"V": "a voltage source", "I": "a current source"}[k] for k in kinds)
+        raise CircuitError(
+            f"{role} {element.name} must be {wanted}"
+            + (" (add a 0 V source in series to measure a current)" if kinds == ("V",) else ""),
+            path=circuit.path,
+            line=element.line,
+        )
+    return element
+
+
+def _drive_current(element: Element) -> tuple[tuple[str, int], ...]:
+    """b entries of a unit current flowing n+ -> source -> n- (into the circuit at n-)."""
+    plus, minus = element.nodes
+    entries = []
+    if plus != GROUND:
+        entries.append((f"v:{plus}", -1))
+    if minus != GROUND:
+        entries.append((f"v:{minus}", 1))
+    return tuple(entries)
+
+
+def _voltage(a: str, b: str) -> tuple[tuple[str, int], ...]:
+    entries = []
+    if a != GROUND:
+        entries.append((f"v:{a}", 1))
+    if b != GROUND:
+        entries.append((f"v:{b}", -1))
+    return tuple(entries)
+
+
+def _assumptions(network: LinearNetwork, options: SmallSignalOptions, circuit: Circuit, driven: str) -> tuple[str, ...]:
+    notes = ["linear small-signal analysis about a fixed operating point"]
+    if circuit.devices:
+        bjt = "BJT hybrid-pi: gm, " + ("beta/gm" if options.beta else "rpi")
+        bjt += ", ro" if options.ro else " (ro omitted)"
+        if options.extras:
+            bjt += ", rmu, rb, re"
+        mos = "MOS: gm" + (", gmb" if options.gmb else " (gmb omitted)") + (", ro" if options.ro else " (ro omitted)")
+        kinds = {d.kind for d in circuit.devices}
+        if "Q" in kinds:
+            notes.append(bjt)
+        if "M" in kinds:
+            notes.append(mos)
+        if options.capacitances:
+            notes.append("device capacitances included (s is the Laplace variable)")
+    if options.match:
+        notes.append("matched devices share symbols; multipliers m/area scale gm up and r down")
+    notes.append(f"independent sources zeroed (V shorted, I open) except {driven}")
+    return tuple(notes)
+
+
+def _formula(problem: LinearProblem, *, quantity: str, label: str, unit: str, circuit: Circuit,
+             options: SmallSignalOptions, driven: str, backend: str | None) -> Formula:
+    solution = solve(problem, backend)
+    formula = Formula.from_solution(
+        solution,
+        quantity=quantity,
+        label=label,
+        unit=unit,
+        meanings={},
+        assumptions=_assumptions(problem.network, options, circuit, driven),
+        problem=problem,
+    )
+    names = {s.name for s in formula.symbols}
+    meanings = {k: v for k, v in problem.network.meanings.items() if k in names}
+    from dataclasses import replace
+
+    return replace(formula, meanings=meanings)
+
+
+def output_resistance(
+    circuit: Circuit,
+    port: str,
+    options: SmallSignalOptions | None = None,
+    backend: str | None = None,
+) -> Formula:
+    """Small-signal resistance (impedance, with capacitances) seen at a port.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    port : str
+        An element name (the element is removed and the impedance between its
+        terminals returned), a node name (to ground) or ``"a,b"``.
+    options : SmallSignalOptions, optional
+    backend : {"flint", "sympy"}, optional
+        Polynomial arithmetic; default flint.
+
+    Returns
+    -------
+    Formula
+        In ohm.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n")
+    >>> output_resistance(c, "R1").expr
+    RB
+    """
+    options = options or SmallSignalOptions()
+    where = parse_port(circuit, port)
+    a, b = where
+    if a == b:
+        raise CircuitError(f"port {port!r} has both terminals on node {a!r}", path=circuit.path)
+    reduced = circuit.without(where.removed) if where.removed else circuit
+    network = expand(reduced, options)
+    for node in (a, b):
+        if node != GROUND and node not in network.nodes:
+            raise CircuitError(f"node {node!r} is left unconnected once {where.removed} is removed",
+                               path=circuit.path)
+    drive = _voltage(a, b)
+    problem = LinearProblem(network, rhs=drive, observe=drive)
+    label = f"Rout at {where.removed or (a if b == GROUND else a + ',' + b)}"
+    return _formula(problem, quantity="output_resistance", label=label, unit="ohm", circuit=circuit,
+                    options=options, driven="the test current at the port", backend=backend)
+
+
+#: ``output_impedance`` is the same analysis; with capacitances the result depends on s.
+output_impedance = output_resistance
+
+
+def current_gain(
+    circuit: Circuit,
+    output: str,
+    input: str,
+    options: SmallSignalOptions | None = None,
+    backend: str | None = None,
+) -> Formula:
+    """Current out of voltage source ``output`` per unit current of source ``input``.
+
+    See the module docstring for the sign convention.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a b RB\\nVout 0 b 0\\n")
+    >>> current_gain(c, "Vout", "I1").expr
+    RA/(RA + RB)
+    """
+    options = options or SmallSignalOptions()
+    out = _source(circuit, output, ("V",), "output")
+    src = _source(circuit, input, ("I",), "input")
+    network = expand(circuit, options)
+    problem = LinearProblem(network, rhs=_drive_current(src), observe=((f"i:{out.name}", -1),))
+    return _formula(problem, quantity="current_gain", label=f"i({out.name})/i({src.name})", unit="A/A",
+                    circuit=circuit, options=options, driven=src.name, backend=backend)
+
+
+def transimpedance(
+    circuit: Circuit,
+    output: str,
+    input: str,
+    options: SmallSignalOptions | None = None,
+    backend: str | None = None,
+) -> Formula:
+    """Output voltage (node or ``"a,b"``) per unit current of source ``input``.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\n")
+    >>> transimpedance(c, "a", "I1").expr
+    RA
+    """
+    options = options or SmallSignalOptions()
+    a, b = _output_nodes(circuit, output)
+    src = _source(circuit, input, ("I",), "input")
+    problem = LinearProblem(expand(circuit, options), rhs=_drive_current(src), observe=_voltage(a, b))
+    return _formula(problem, quantity="transimpedance", label=f"v({output})/i({src.name})", unit="V/A",
+                    circuit=circuit, options=options, driven=src.name, backend=backend)
+
+
+def voltage_gain(
+    circuit: Circuit,
+    output: str,
+    input: str,
+    options: SmallSignalOptions | None = None,
+    backend: str | None = None,
+) -> Formula:
+    """Output voltage (node or ``"a,b"``) per unit voltage of source ``input``.
+
+    With ``input`` the supply source this is the supply-to-output transfer
+    (line sensitivity in small signal).
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nV1 a 0 1\\nR1 a b RA\\nR2 b 0 RB\\n")
+    >>> voltage_gain(c, "b", "V1").expr
+    RB/(RA + RB)
+    """
+    options = options or SmallSignalOptions()
+    a, b = _output_nodes(circuit, output)
+    src = _source(circuit, input, ("V",), "input")
+    problem = LinearProblem(expand(circuit, options), rhs=((f"i:{src.name}", 1),), observe=_voltage(a, b))
+    return _formula(problem, quantity="voltage_gain", label=f"v({output})/v({src.name})", unit="V/V",
+                    circuit=circuit, options=options, driven=src.name, backend=backend)
+
+
+def transconductance(
+    circuit: Circuit,
+    output: str,
+    input: str,
+    options: SmallSignalOptions | None = None,
+    backend: str | None = None,
+) -> Formula:
+    """Current out of voltage source ``output`` per unit voltage of source ``input``.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nV1 a 0 1\\nR1 a b RA\\nVout b 0 0\\n")
+    >>> transconductance(c, "Vout", "V1").expr
+    -1/RA
+    """
+    options = options or SmallSignalOptions()
+    out = _source(circuit, output, ("V",), "output")
+    src = _source(circuit, input, ("V",), "input")
+    problem = LinearProblem(expand(circuit, options), rhs=((f"i:{src.name}", 1),), observe=((f"i:{out.name}", -1),))
+    return _formula(problem, quantity="transconductance", label=f"i({out.name})/v({src.name})", unit="A/V",
+                    circuit=circuit, options=options, driven=src.name, backend=backend)
+
+
+def _output_nodes(circuit: Circuit, output: str) -> tuple[str, str]:
+    if circuit.has_element(output) and "," not in output:
+        element = circuit.element(output)
+        return element.nodes[0], element.nodes[1]
+    port = parse_port(circuit, output)
+    return port[0], port[1]
+
+
+#: Quantity name -> (function, unit, takes an input source).
+QUANTITIES = {
+    "output_resistance": (output_resistance, "ohm", False),
+    "current_gain": (current_gain, "A/A", True),
+    "voltage_gain": (voltage_gain, "V/V", True),
+    "transconductance": (transconductance, "A/V", True),
+    "transimpedance": (transimpedance, "V/A", True),
+}

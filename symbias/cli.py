@@ -1,0 +1,80 @@
+"""The ``symbias`` command line: parses arguments and wires the steps.
+
+It holds no analysis.  Every sub-command lives in :mod:`symbias.commands`.
+Errors derived from :class:`~symbias.errors.SymbiasError` become one line on
+stderr (``file:line: cause``) and exit status 2 (bad input) or 1 (analysis
+failed); ``--debug`` shows the traceback instead.
+
+Examples
+--------
+>>> main(["--version"])  # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from . import __version__
+from .commands import COMMANDS
+from .errors import AnalysisError, SymbiasError
+
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_ANALYSIS", "EXIT_USAGE"]
+
+EXIT_OK = 0
+EXIT_ANALYSIS = 1
+EXIT_USAGE = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors in one line with exit status 2."""
+
+    def error(self, message: str):  # noqa: D401 - argparse API
+        self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every registered sub-command."""
+    parser = _Parser(
+        prog="symbias",
+        description="Closed-form and numeric analysis of transistor bias circuits.",
+        epilog="Results are design aids: sign-off needs full simulation and measurement.",
+    )
+    parser.add_argument("--version", action="version", version=f"symbias {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show a traceback on errors")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMANDS:
+        module = importlib.import_module(f".commands.{name}", __package__)
+        module.register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; return the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return EXIT_USAGE
+    try:
+        return int(args.func(args) or EXIT_OK)
+    except SymbiasError as err:
+        if args.debug:
+            raise
+        print(str(err), file=sys.stderr)
+        return EXIT_ANALYSIS if isinstance(err, AnalysisError) else EXIT_USAGE
+    except KeyboardInterrupt:  # pragma: no cover - interactive
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:  # pragma: no cover - e.g. piped into head
+        return EXIT_OK
+
+
+def run() -> None:
+    """Entry point of the console script."""
+    sys.exit(main())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    run()

@@ -1,0 +1,393 @@
+"""The Formula: an exact rational result kept as two ring polynomials.
+
+Fifth step of the symbolic side (polynomial system -> :class:`Formula`).  A
+formula keeps numerator and denominator as polynomials of
+:mod:`symbias.polys` (cheap to differentiate, approximate and evaluate) and
+builds a sympy expression only when asked (:attr:`Formula.expr`), because
+turning a large polynomial into a sympy ``Expr`` costs far more than deriving
+it.
+
+Ring generators stand for a user symbol ``x``, its reciprocal ``1/x`` or a
+non-polynomial sub-expression (see :class:`~symbias.mna.RingVariable`).  The
+user-facing form multiplies numerator and denominator by the lowest powers
+of the symbols that clear every reciprocal, so ``.expr`` is a ratio of two
+polynomials in the user's symbols.
+
+Examples
+--------
+>>> from symbias.netlist import parse_netlist
+>>> from symbias.analyses import output_resistance
+>>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"), "a")
+>>> f.expr
+RA*RB/(RA + RB)
+>>> float(f.evaluate({"RA": 2.0, "RB": 2.0}))
+1.0
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+from fractions import Fraction
+from functools import cached_property, reduce
+from math import gcd, lcm
+from types import MappingProxyType
+from typing import Any, Mapping
+
+import numpy as np
+import sympy
+
+from .errors import AnalysisError
+from .mna import LinearProblem, RingVariable, Solution
+from .numeric import evaluate_expression, normalise_values, solve_problem
+from .polys import Ring
+
+__all__ = ["Formula", "TERM_BUDGET", "POLYNOMIAL_ROUTE_TERMS"]
+
+#: Largest result (numerator plus denominator terms) turned into a sympy expression.
+TERM_BUDGET = 200_000
+#: Above this many terms ``evaluate(route="auto")`` uses the batched numeric solve.
+POLYNOMIAL_ROUTE_TERMS = 3_000
+#: Largest result for which common factors are cancelled (a gcd per result).
+CANCEL_TERMS = 50_000
+
+
+@dataclass(frozen=True, eq=False)
+class Formula:
+    """An exact small-signal result ``numerator / denominator``.
+
+    Parameters
+    ----------
+    quantity : str
+        ``output_resistance``, ``current_gain``, ``voltage_gain``,
+        ``transconductance``, ``transimpedance`` or a derived name.
+    label : str
+        Short human description, e.g. ``"Rout at Vout"``.
+    unit : str
+        Unit of the result (``ohm``, ``A/A``, ``V/V``, ``A/V``, ``V/A``).
+    ring : Ring
+        Polynomial ring of numerator and denominator.
+    variables : tuple of RingVariable
+        Meaning of each ring generator.
+    numerator, denominator
+        Ring polynomials.
+    meanings : mapping of str to str
+        What each user symbol stands for, with its unit.
+    assumptions : tuple of str
+        Model assumptions behind the result (e.g. "hybrid-pi, ro included").
+    problem : LinearProblem, optional
+        The linear problem it solves, for the numeric evaluation route.
+    """
+
+    quantity: str
+    label: str
+    unit: str
+    ring: Ring
+    variables: tuple[RingVariable, ...]
+    numerator: Any
+    denominator: Any
+    meanings: Mapping[str, str] = field(default_factory=dict)
+    assumptions: tuple[str, ...] = ()
+    problem: LinearProblem | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "meanings", MappingProxyType(dict(self.meanings)))
+        object.__setattr__(self, "assumptions", tuple(self.assumptions))
+
+    # -- construction -------------------------------------------------------------
+    @classmethod
+    def from_solution(cls, solution: Solution, *, cancel: bool = True, **fields) -> "Formula":
+        """Build a formula from a solver result: cancel common factors, normalise.
+
+        Common polynomial factors are cancelled when the result has fewer than
+        :data:`CANCEL_TERMS` terms; the denominator is scaled to integer
+        coefficients without common divisor and a positive leading term.
+        """
+        ring = solution.ring
+        num, den = solution.numerator, solution.denominator
+        if cancel and ring.nterms(num) + ring.nterms(den) < CANCEL_TERMS and not ring.is_zero(num):
+            common = ring.gcd(num, den)
+            if ring.nterms(common) > 1 or any(e for e, _ in ring.terms(common) for e in e):
+                num, den = ring.exact_div(num, common), ring.exact_div(den, common)
+        num, den = _normalise(ring, num, den)
+        return cls(ring=ring, variables=solution.variables, numerator=num, denominator=den, **fields)
+
+    def with_polynomials(self, numerator: Any, denominator: Any, **changes) -> "Formula":
+        """A formula with new polynomials over the same ring (normalised, no cancel)."""
+        num, den = _normalise(self.ring, numerator, denominator)
+        return replace(self, numerator=num, denominator=den, **changes)
+
+    # -- structure ----------------------------------------------------------------
+    @cached_property
+    def symbols(self) -> tuple[sympy.Symbol, ...]:
+        """The user symbols the result depends on, sorted by name."""
+        used = self._used_generators
+        names: set[str] = set()
+        for i in used:
+            variable = self.variables[i]
+            if variable.symbol:
+                names.add(variable.symbol)
+            else:
+                names |= {s.name for s in variable.meaning.free_symbols}
+        return tuple(sympy.Symbol(n) for n in sorted(names))
+
+    @cached_property
+    def _used_generators(self) -> tuple[int, ...]:
+        used: set[int] = set()
+        for poly in (self.numerator, self.denominator):
+            for exps, _ in self.ring.terms(poly):
+                used |= {i for i, e in enumerate(exps) if e}
+        return tuple(sorted(used))
+
+    @property
+    def nterms(self) -> tuple[int, int]:
+        """Number of terms of numerator and denominator."""
+        return self.ring.nterms(self.numerator), self.ring.nterms(self.denominator)
+
+    def user_terms(self) -> tuple[list[tuple[dict[Any, int], Fraction]], list[tuple[dict[Any, int], Fraction]]]:
+        """Numerator and denominator terms in user symbols, reciprocals cleared.
+
+        Each term is ``({factor: exponent}, coefficient)`` where a factor is a
+        sympy Symbol (or a sub-expression for non-polynomial values); both
+        lists are multiplied by the same monomial so every exponent is >= 0.
+        """
+        keyed = []
+        keys: list[tuple[Any, int]] = []
+        for variable in self.variables:
+            if variable.power:
+                keys.append((sympy.Symbol(variable.symbol), variable.power))
+            elif variable.meaning.is_Pow and variable.meaning.exp == -1:
+                keys.append((variable.meaning.base, -1))
+            else:
+                keys.append((variable.meaning, 1))
+        for poly in (self.numerator, self.denominator):
+            terms = []
+            for exps, coeff in self.ring.terms(poly):
+                powers: dict[Any, int] = {}
+                for (key, sign), e in zip(keys, exps):
+                    if e:
+                        powers[key] = powers.get(key, 0) + sign * e
+                terms.append((powers, coeff))
+            keyed.append(terms)
+        lowest: dict[Any, int] = {}
+        for terms in keyed:
+            for powers, _ in terms:
+                for key, e in powers.items():
+                    lowest[key] = min(lowest.get(key, 0), e)
+        shift = {k: -e for k, e in lowest.items() if e < 0}
+        out = []
+        for terms in keyed:
+            shifted = []
+            for powers, coeff in terms:
+                new = {k: e + shift.get(k, 0) for k, e in powers.items()}
+                for k, e in shift.items():
+                    if k not in powers:
+                        new[k] = e
+                shifted.append(({k: e for k, e in new.items() if e}, coeff))
+            out.append(shifted)
+        return out[0], out[1]
+
+    def _check_budget(self) -> None:
+        total = sum(self.nterms)
+        if total > TERM_BUDGET:
+            raise AnalysisError(
+                f"the exact {self.label} has {total} terms, more than the display budget of {TERM_BUDGET}; "
+                "evaluate it numerically or approximate it"
+            )
+
+    @cached_property
+    def numerator_expr(self) -> sympy.Expr:
+        """Numerator as a sympy polynomial expression in the user symbols."""
+        self._check_budget()
+        return _terms_to_expr(self.user_terms()[0])
+
+    @cached_property
+    def denominator_expr(self) -> sympy.Expr:
+        """Denominator as a sympy polynomial expression in the user symbols."""
+        self._check_budget()
+        return _terms_to_expr(self.user_terms()[1])
+
+    @cached_property
+    def expr(self) -> sympy.Expr:
+        """The exact result as a sympy expression ``numerator/denominator``."""
+        return self.numerator_expr / self.denominator_expr
+
+    def exact_string(self) -> str:
+        """The exact result as text that ``sympy.parse_expr`` reads back.
+
+        Written straight from the terms, so it also works for results too big
+        for :attr:`expr`.
+        """
+        num, den = self.user_terms()
+        return f"({_terms_to_text(num)})/({_terms_to_text(den)})"
+
+    def latex(self) -> str:
+        """LaTeX of the exact result."""
+        return sympy.latex(self.expr)
+
+    def _repr_latex_(self) -> str:
+        return f"$\\displaystyle {self.latex()}$"
+
+    def __str__(self) -> str:
+        return f"{self.label} = {self.expr}"
+
+    # -- numbers ------------------------------------------------------------------
+    def generator_values(self, values: Mapping[Any, Any]) -> list[Any]:
+        """Values of the ring generators for user symbol values (numbers or arrays)."""
+        values = normalise_values(values)
+        missing = [s.name for s in self.symbols if s.name not in values]
+        if missing:
+            raise AnalysisError(f"no value given for {', '.join(missing)}")
+        out = []
+        for variable in self.variables:
+            if variable.power == 1:
+                out.append(values.get(variable.symbol, 0.0))
+            elif variable.power == -1:
+                value = values.get(variable.symbol)
+                out.append(0.0 if value is None else 1.0 / np.asarray(value, dtype=np.result_type(value, float)))
+            else:
+                out.append(evaluate_expression(variable.meaning, values) if variable.meaning.free_symbols <= set(
+                    sympy.Symbol(k) for k in values) else 0.0)
+        return out
+
+    @cached_property
+    def _compiled(self):
+        compiled = []
+        for poly in (self.numerator, self.denominator):
+            terms = []
+            for exps, coeff in self.ring.terms(poly):
+                terms.append((float(coeff), tuple((i, e) for i, e in enumerate(exps) if e)))
+            compiled.append(terms)
+        return compiled
+
+    def evaluate(self, values: Mapping[Any, Any], route: str = "auto") -> np.ndarray:
+        """Evaluate the result for numbers or numpy arrays of symbol values.
+
+        Parameters
+        ----------
+        values : mapping of symbol (or name) to number or array
+            Arrays broadcast; complex values are allowed (e.g. ``s = 2j*pi*f``).
+        route : {"auto", "polynomial", "solve"}
+            ``polynomial`` evaluates the exact polynomials term by term;
+            ``solve`` solves the numeric network (needs :attr:`problem`);
+            ``auto`` picks the polynomial route for results of up to
+            :data:`POLYNOMIAL_ROUTE_TERMS` terms.
+
+        Examples
+        --------
+        >>> from symbias.netlist import parse_netlist
+        >>> from symbias.analyses import output_resistance
+        >>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\n"), "a")
+        >>> f.evaluate({"RA": [1.0, 2.0]})
+        array([1., 2.])
+        """
+        if route not in ("auto", "polynomial", "solve"):
+            raise ValueError(f"unknown route {route!r}")
+        if route == "auto":
+            route = "solve" if sum(self.nterms) > POLYNOMIAL_ROUTE_TERMS and self.problem is not None else "polynomial"
+        if route == "solve":
+            if self.problem is None:
+                raise AnalysisError(f"{self.label} has no network to solve numerically")
+            return np.asarray(solve_problem(self.problem, values))
+        generators = self.generator_values(values)
+        num = _evaluate_terms(self._compiled[0], generators)
+        den = _evaluate_terms(self._compiled[1], generators)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.asarray(num / den)
+
+    # -- calculus -------------------------------------------------------------------
+    def derivative(self, symbol: str | sympy.Symbol) -> "Formula":
+        """Exact derivative with respect to a user symbol, as a new formula.
+
+        Uses d/dx = d/d[x] - [1/x]**2 d/d[1/x] on the ring generators.
+
+        Raises
+        ------
+        AnalysisError
+            If the symbol also occurs inside a non-polynomial sub-expression.
+        """
+        name = symbol.name if isinstance(symbol, sympy.Symbol) else str(symbol)
+        ring = self.ring
+        direct = inverse = None
+        for i, variable in enumerate(self.variables):
+            if variable.symbol == name and variable.power == 1:
+                direct = i
+            elif variable.symbol == name and variable.power == -1:
+                inverse = i
+            elif not variable.power and sympy.Symbol(name) in variable.meaning.free_symbols:
+                raise AnalysisError(f"cannot differentiate through the sub-expression {variable.meaning}")
+
+        def d(poly):
+            out = ring.zero
+            if direct is not None:
+                out = out + ring.derivative(poly, direct)
+            if inverse is not None:
+                g = ring.gens[inverse]
+                out = out - g * g * ring.derivative(poly, inverse)
+            return out
+
+        num, den = self.numerator, self.denominator
+        numerator = d(num) * den - num * d(den)
+        return self.with_polynomials(
+            numerator,
+            den * den,
+            quantity=f"d_{self.quantity}",
+            label=f"d({self.label})/d{name}",
+            unit=f"({self.unit})/[{name}]",
+        )
+
+
+def _normalise(ring: Ring, num, den):
+    terms = ring.terms(den)
+    if not terms:
+        raise AnalysisError("the result has a zero denominator")
+    numerators = [c.numerator for _, c in terms]
+    denominators = [c.denominator for _, c in terms]
+    content = Fraction(reduce(gcd, numerators), reduce(lcm, denominators))
+    positive = sum(1 if c > 0 else -1 for _, c in terms) >= 0
+    scale = 1 / content if positive else -1 / content
+    if scale != 1:
+        factor = ring.constant(scale)
+        num, den = num * factor, den * factor
+    return num, den
+
+
+def _terms_to_expr(terms) -> sympy.Expr:
+    parts = []
+    for powers, coeff in terms:
+        factors = [sympy.Rational(coeff.numerator, coeff.denominator)]
+        factors += [key**e for key, e in powers.items()]
+        parts.append(sympy.Mul(*factors))
+    return sympy.Add(*parts)
+
+
+def _terms_to_text(terms) -> str:
+    if not terms:
+        return "0"
+    out = []
+    for powers, coeff in terms:
+        factors = []
+        if coeff != 1 or not powers:
+            factors.append(f"({coeff})" if coeff.denominator != 1 or coeff < 0 else str(coeff))
+        for key, e in sorted(powers.items(), key=lambda kv: str(kv[0])):
+            text = str(key) if isinstance(key, sympy.Symbol) else f"({key})"
+            factors.append(text if e == 1 else f"{text}**{e}")
+        out.append("*".join(factors))
+    return " + ".join(out)
+
+
+def _evaluate_terms(terms, generators) -> Any:
+    powers: dict[tuple[int, int], Any] = {}
+
+    def power(i: int, e: int):
+        key = (i, e)
+        if key not in powers:
+            powers[key] = generators[i] if e == 1 else np.asarray(generators[i]) ** e
+        return powers[key]
+
+    total = 0.0
+    for coeff, factors in terms:
+        value = coeff
+        for i, e in factors:
+            value = value * power(i, e)
+        total = total + value
+    return total
