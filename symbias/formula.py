@@ -48,7 +48,9 @@ TERM_BUDGET = 200_000
 #: Above this many terms ``evaluate(route="auto")`` uses the batched numeric solve.
 POLYNOMIAL_ROUTE_TERMS = 3_000
 #: Largest result for which common factors are cancelled (a gcd per result).
-CANCEL_TERMS = 50_000
+CANCEL_TERMS = 20_000
+#: Largest result whose coefficients are made integer and coprime (else scaled to a unit leading term).
+NORMALISE_TERMS = 20_000
 
 
 @dataclass(frozen=True, eq=False)
@@ -106,7 +108,7 @@ class Formula:
         num, den = solution.numerator, solution.denominator
         if cancel and ring.nterms(num) + ring.nterms(den) < CANCEL_TERMS and not ring.is_zero(num):
             common = ring.gcd(num, den)
-            if ring.nterms(common) > 1 or any(e for e, _ in ring.terms(common) for e in e):
+            if ring.nterms(common) > 1 or any(ring.degrees(common)):
                 num, den = ring.exact_div(num, common), ring.exact_div(den, common)
         num, den = _normalise(ring, num, den)
         return cls(ring=ring, variables=solution.variables, numerator=num, denominator=den, **fields)
@@ -132,11 +134,8 @@ class Formula:
 
     @cached_property
     def _used_generators(self) -> tuple[int, ...]:
-        used: set[int] = set()
-        for poly in (self.numerator, self.denominator):
-            for exps, _ in self.ring.terms(poly):
-                used |= {i for i, e in enumerate(exps) if e}
-        return tuple(sorted(used))
+        degrees = zip(self.ring.degrees(self.numerator), self.ring.degrees(self.denominator))
+        return tuple(i for i, (a, b) in enumerate(degrees) if a or b)
 
     @property
     def nterms(self) -> tuple[int, int]:
@@ -337,9 +336,12 @@ class Formula:
 
 
 def _normalise(ring: Ring, num, den):
-    terms = ring.terms(den)
-    if not terms:
+    if ring.is_zero(den):
         raise AnalysisError("the result has a zero denominator")
+    if ring.nterms(den) + ring.nterms(num) > NORMALISE_TERMS:
+        lead = ring.leading_coefficient(den)
+        return (num, den) if lead == 1 else (ring.scale(num, 1 / lead), ring.scale(den, 1 / lead))
+    terms = ring.terms(den)
     numerators = [c.numerator for _, c in terms]
     denominators = [c.denominator for _, c in terms]
     content = Fraction(reduce(gcd, numerators), reduce(lcm, denominators))

@@ -66,6 +66,18 @@ class Ring:
     def derivative(self, poly: Any, index: int) -> Any:
         raise NotImplementedError
 
+    def degrees(self, poly: Any) -> tuple[int, ...]:
+        """Highest exponent of each generator in ``poly``."""
+        raise NotImplementedError
+
+    def leading_coefficient(self, poly: Any) -> Fraction:
+        """Coefficient of the leading term (in the ring's term order)."""
+        raise NotImplementedError
+
+    def scale(self, poly: Any, factor: Fraction) -> Any:
+        """``poly`` times a rational constant."""
+        return poly * self.constant(factor)
+
     def gcd(self, p: Any, q: Any) -> Any:
         raise NotImplementedError
 
@@ -131,6 +143,15 @@ class FlintRing(Ring):
     def is_zero(self, poly):
         return poly.is_zero()
 
+    def degrees(self, poly):
+        if poly.is_zero():
+            return (0,) * len(self.names)
+        return tuple(int(d) for d in poly.degrees()[: len(self.names)])
+
+    def leading_coefficient(self, poly):
+        c = poly.leading_coefficient()
+        return Fraction(int(c.p), int(c.q))
+
     def derivative(self, poly, index):
         return poly.derivative(index)
 
@@ -181,6 +202,15 @@ class SympyRing(Ring):
 
     def is_zero(self, poly):
         return not poly
+
+    def degrees(self, poly):
+        if not poly:
+            return (0,) * len(self.names)
+        return tuple(max(0, int(d)) for d in poly.degrees()[: len(self.names)])
+
+    def leading_coefficient(self, poly):
+        c = poly.LC
+        return Fraction(int(c.numerator), int(c.denominator))
 
     def derivative(self, poly, index):
         return poly.diff(self._ring.gens[index])
