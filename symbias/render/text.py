@@ -1,0 +1,85 @@
+"""Terminal rendering with rich: a panel per derived formula.
+
+Examples
+--------
+>>> from symbias.netlist import parse_netlist
+>>> from symbias.analyses import output_resistance
+>>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\n"), "a")
+>>> "RA" in render_to_string(formula_panel(f))
+True
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import sympy
+
+from ..formula import Formula
+
+__all__ = ["formula_panel", "readable", "render_to_string", "DISPLAY_TERMS"]
+
+#: Results with more terms than this are summarised, not printed in full.
+DISPLAY_TERMS = 400
+
+
+def readable(expr: sympy.Expr) -> str:
+    """A compact one-line form of an expression (``**`` as ``^``, numbers in engineering style)."""
+    text = sympy.sstr(expr)
+    return text.replace("**", "^")
+
+
+def formula_panel(formula: Formula, extra_rows: list[tuple[str, str]] | None = None, title: str | None = None) -> Any:
+    """A rich Panel with the formula, its symbols and assumptions."""
+    from rich.console import Group
+    from rich.panel import Panel
+    from rich.table import Table
+    from rich.text import Text
+
+    parts: list[Any] = []
+    num_terms, den_terms = formula.nterms
+    if num_terms + den_terms <= DISPLAY_TERMS:
+        numerator = readable(formula.numerator_expr)
+        denominator = readable(formula.denominator_expr)
+        body = Text()
+        body.append(f"{formula.label} =\n", style="bold")
+        if formula.denominator_expr == 1:
+            body.append(f"  {numerator}")
+        else:
+            body.append(f"  ({numerator})\n")
+            body.append(f"  / ({denominator})")
+        parts.append(body)
+    else:
+        parts.append(Text(f"{formula.label}: exact result too long to print "
+                          f"({num_terms} numerator and {den_terms} denominator terms); "
+                          "use --json for the full form or --approx for the leading terms", style="bold"))
+    parts.append(Text(f"unit: {formula.unit}    terms: {num_terms} / {den_terms}", style="dim"))
+    for label, value in extra_rows or []:
+        parts.append(Text.assemble((f"{label}: ", "bold"), Text(value)))
+    if formula.meanings:
+        table = Table(show_header=True, header_style="bold", box=None, pad_edge=False)
+        table.add_column("symbol")
+        table.add_column("meaning")
+        for name in sorted(formula.meanings):
+            table.add_row(Text(name), Text(formula.meanings[name]))
+        parts.append(table)
+    if formula.assumptions:
+        parts.append(Text("assumptions: " + "; ".join(formula.assumptions), style="italic"))
+    return Panel(Group(*parts), title=title or formula.quantity.replace("_", " "), expand=False)
+
+
+def render_to_string(renderable: Any, width: int = 100) -> str:
+    """Render a rich object to plain text (for tests and files)."""
+    from rich.console import Console
+
+    console = Console(width=width, record=True, color_system=None, file=_Null())
+    console.print(renderable)
+    return console.export_text()
+
+
+class _Null:
+    def write(self, text: str) -> int:
+        return len(text)
+
+    def flush(self) -> None:
+        pass
