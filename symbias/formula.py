@@ -344,7 +344,7 @@ def _normalise(ring: Ring, num, den):
     terms = ring.terms(den)
     numerators = [c.numerator for _, c in terms]
     denominators = [c.denominator for _, c in terms]
-    content = Fraction(reduce(gcd, numerators), reduce(lcm, denominators))
+    content = Fraction(abs(reduce(gcd, numerators)), reduce(lcm, denominators))
     positive = sum(1 if c > 0 else -1 for _, c in terms) >= 0
     scale = 1 / content if positive else -1 / content
     if scale != 1:
