@@ -15,9 +15,11 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import warnings
 
 from . import __version__
 from .commands import COMMANDS
+from .circuit import CircuitWarning
 from .errors import AnalysisError, SymbiasError
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_ANALYSIS", "EXIT_USAGE"]
@@ -32,6 +34,13 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
+
+
+def _one_line_warning(message, category, filename, lineno, file=None, line=None) -> None:
+    """Print a warning as ``file:line: warning: text`` (the message carries its own location)."""
+    text = str(message)
+    where, _, rest = text.partition(": ")
+    print(f"{where}: warning: {rest}" if rest else f"warning: {text}", file=sys.stderr)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -58,7 +67,10 @@ def main(argv: list[str] | None = None) -> int:
         parser.print_help()
         return EXIT_USAGE
     try:
-        return int(args.func(args) or EXIT_OK)
+        with warnings.catch_warnings():
+            warnings.simplefilter("always", CircuitWarning)
+            warnings.showwarning = _one_line_warning
+            return int(args.func(args) or EXIT_OK)
     except SymbiasError as err:
         if args.debug:
             raise
