@@ -10,9 +10,10 @@ Sign conventions (SPICE directions):
   at ``n-``.
 * The output current of ``current_gain`` and ``transconductance`` is the
   current that flows out of the output voltage source's ``+`` terminal into
-  the circuit (minus the SPICE branch current).  For a mirror written as
-  ``Iref vcc in`` and ``Vout out 0`` (NPN) or ``Iref in 0`` and ``Vout out 0``
-  (PNP) the gain is positive.
+  the circuit (minus the SPICE branch current).  A sinking (NPN, NMOS) mirror
+  written as ``Iref vcc in`` and ``Vout out 0``, and a sourcing (PNP, PMOS)
+  mirror written as ``Iref in 0`` and ``Vout vcc out``, both have a positive
+  gain: the sign follows the direction in which each source is written.
 * An input voltage source drives a unit voltage ``v(n+) - v(n-)``.
 * Output voltages are ``v(a) - v(b)`` of the named node pair (``b`` is ground
   for a single node).

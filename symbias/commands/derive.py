@@ -12,11 +12,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from ..errors import CircuitError, NetlistError
 
-__all__ = ["register", "run", "load_target", "options_from_args", "requested_quantities"]
+__all__ = ["register", "run", "load_target", "options_from_args", "requested_quantities", "output_format",
+           "Result"]
 
 _PAIR_QUANTITIES = {
     "gain": "current_gain",
@@ -57,9 +60,26 @@ def register(subparsers) -> None:
     model.add_argument("--capacitances", action="store_true", help="include device capacitances (s appears)")
     model.add_argument("--symbolic", action="store_true", help="turn numeric R, C, L values into symbols")
     model.add_argument("--backend", choices=("flint", "sympy"), default=None, help="polynomial arithmetic")
+    approx = p.add_argument_group("approximation and sensitivities")
+    approx.add_argument("--approx", action="store_true",
+                        help="dominant-term form with its worst relative error over the assumed ranges")
+    approx.add_argument("--assume", action="append", default=[], metavar="STATEMENT",
+                        help='magnitude assumption, e.g. "RE >> 1/gm", "beta in [50, 200]", "A ~ B" (repeatable)')
+    approx.add_argument("--no-default-assumptions", action="store_true",
+                        help="drop the hand-analysis defaults (gm*ro >> 1, beta >> 1, ro >> rpi, 0.05 < gmb/gm < 0.4)")
+    approx.add_argument("--tolerance", type=float, default=0.10, metavar="REL",
+                        help="largest accepted worst relative error of --approx (default 0.10)")
+    approx.add_argument("--samples", type=int, default=2000, metavar="N", help="random points for the error search")
+    approx.add_argument("--seed", type=int, default=0, help="seed of the random points")
+    approx.add_argument("--sensitivity", action="store_true",
+                        help="normalised sensitivities (x/F) dF/dx, ranked at the centre of the assumed ranges")
+    approx.add_argument("--mirror-error", action="store_true",
+                        help="for current gains: error 1 - gain/ideal, to leading order and split by cause")
     out = p.add_argument_group("output")
-    out.add_argument("--json", action="store_true", help="print one JSON object")
-    out.add_argument("--latex", action="store_true", help="print LaTeX")
+    out.add_argument("--format", choices=("text", "latex", "markdown", "json", "python"), default=None,
+                     help="output form (default text)")
+    out.add_argument("--json", action="store_true", help="same as --format json")
+    out.add_argument("--latex", action="store_true", help="same as --format latex")
     out.add_argument("--library", action="append", default=[], metavar="DIR", help="extra topology folder")
     p.set_defaults(func=run)
 
@@ -129,39 +149,135 @@ def default_quantities(circuit, topology) -> list[tuple[str, tuple[str, ...]]]:
     return wanted
 
 
+def output_format(args: argparse.Namespace) -> str:
+    """The output form from ``--format`` and the ``--json``/``--latex`` shorthands."""
+    chosen = {f for f, flag in (("json", args.json), ("latex", args.latex)) if flag}
+    if args.format:
+        chosen.add(args.format)
+    if len(chosen) > 1:
+        raise NetlistError(f"choose one output form, got {', '.join(sorted(chosen))}", path="--format")
+    return chosen.pop() if chosen else "text"
+
+
+@dataclass(frozen=True, eq=False)
+class Result:
+    """A derived formula with what was asked on top of it (approximation, sensitivities, error split)."""
+
+    formula: Any
+    approximation: Any = None
+    sensitivities: Any = None
+    point: Any = None
+    error: Any = None
+
+
+def _extras(args: argparse.Namespace, formula) -> Result:
+    from ..approx import AssumptionError, approximate, magnitude_model
+
+    if not 0 < args.tolerance < 1:
+        raise AssumptionError(f"tolerance must be between 0 and 1, got {args.tolerance:g}", path="--tolerance")
+    if args.samples < 1:
+        raise AssumptionError(f"samples must be at least 1, got {args.samples}", path="--samples")
+    options = dict(defaults=not args.no_default_assumptions, tolerance=args.tolerance, samples=args.samples,
+                   seed=args.seed)
+    try:
+        approximation = approximate(formula, args.assume, **options) if args.approx else None
+        sensitivities = point = error = None
+        if args.sensitivity:
+            from ..sensitivity import sensitivities as table
+
+            names = [s.name for s in formula.symbols]
+            model = approximation.model if approximation is not None and approximation.model else None
+            if model is None and names:
+                model = magnitude_model(names, args.assume, defaults=options["defaults"], meanings=formula.meanings)
+            point = model.centre() if model is not None else {}
+            sensitivities = table(formula, point)
+        if args.mirror_error and formula.quantity == "current_gain":
+            from ..mirror_error import transfer_error
+
+            error = transfer_error(formula, None, args.assume, **options)
+    except AssumptionError as err:
+        raise err.located(path="--assume") from None
+    return Result(formula, approximation, sensitivities, point, error)
+
+
+def _error_record(error) -> dict:
+    return {
+        "ideal": str(error.ideal.expr),
+        "exact": error.exact.exact_string(),
+        "leading": error.leading.text,
+        "leading_error": float(error.leading.error),
+        "causes": {c.name: {"leading": c.leading.text, "leading_error": float(c.leading.error)} for c in error.causes},
+    }
+
+
 def run(args: argparse.Namespace) -> int:
-    """Derive, then print as text, LaTeX or JSON."""
+    """Derive, then print as text, LaTeX, Markdown, JSON or Python."""
     from ..analyses import QUANTITIES
 
+    form = output_format(args)
     circuit, topology = load_target(args.netlist, args.library)
     options = options_from_args(args)
-    formulas = []
+    results = []
     for quantity, arguments in requested_quantities(args, circuit, topology):
         function = QUANTITIES[quantity][0]
-        formulas.append(function(circuit, *arguments, options=options, backend=args.backend))
-    if args.json:
+        formula = function(circuit, *arguments, options=options, backend=args.backend)
+        results.append(_extras(args, formula))
+    # everything is computed before anything is printed: a failure writes nothing
+    if form == "json":
         from ..render.json import dumps, formula_record
 
-        records = [formula_record(f) for f in formulas]
+        records = []
+        for r in results:
+            record = formula_record(r.formula, r.approximation, r.sensitivities, r.point)
+            if r.error is not None:
+                record["transfer_error"] = _error_record(r.error)
+            records.append(record)
         header = {"circuit": circuit.title, "source": circuit.path or args.netlist}
         if len(records) == 1:
             print(dumps({**header, **records[0]}))
         else:
             print(dumps({**header, "results": records}))
         return 0
-    if args.latex:
-        from ..render.latex import formula_latex
+    if form == "latex":
+        from ..render.latex import approximation_latex, formula_latex
 
-        for formula in formulas:
-            print(formula_latex(formula))
+        for r in results:
+            print(formula_latex(r.formula))
+            if r.approximation is not None:
+                print(approximation_latex(r.approximation))
+            if r.error is not None:
+                print(approximation_latex(r.error.leading))
+        return 0
+    if form == "markdown":
+        from ..render.markdown import formula_markdown
+
+        print(f"## {circuit.title}\n")
+        for r in results:
+            print(formula_markdown(r.formula, r.approximation, r.sensitivities))
+            if r.error is not None:
+                print(formula_markdown(r.error.exact, r.error.leading, title=r.error.exact.label))
+        return 0
+    if form == "python":
+        from ..render.python import python_source
+
+        print("\n\n".join(python_source(r.formula, r.approximation) for r in results), end="")
         return 0
     from rich.console import Console
 
-    from ..render.text import formula_panel
+    from ..render.text import approximation_rows, formula_panel, sensitivity_table
 
     console = Console(file=sys.stdout)
     console.print(f"[bold]{circuit.title}[/bold]  ({circuit.path or args.netlist})")
-    for formula in formulas:
-        console.print(formula_panel(formula))
+    for r in results:
+        rows = approximation_rows(r.approximation) if r.approximation is not None else []
+        if r.error is not None:
+            rows.append(("error 1 - gain/ideal", f"~ {r.error.leading.text}  (worst error "
+                                                 f"{100 * r.error.leading.error:.3g} %; ideal {r.error.ideal.expr})"))
+            for cause in r.error.causes:
+                rows.append((f"  from {cause.name}", f"~ {cause.leading.text}"))
+        console.print(formula_panel(r.formula, rows))
+        if r.sensitivities:
+            point = ", ".join(f"{k}={v:.3g}" for k, v in (r.point or {}).items())
+            console.print(sensitivity_table(r.sensitivities, title=f"sensitivities S = (x/F) dF/dx at {point}"))
     console.print("[dim]Design aid: sign-off needs full simulation and measurement.[/dim]")
     return 0

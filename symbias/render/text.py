@@ -17,7 +17,8 @@ import sympy
 
 from ..formula import Formula
 
-__all__ = ["formula_panel", "readable", "render_to_string", "DISPLAY_TERMS"]
+__all__ = ["formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
+           "DISPLAY_TERMS"]
 
 #: Results with more terms than this are summarised, not printed in full.
 DISPLAY_TERMS = 400
@@ -66,6 +67,52 @@ def formula_panel(formula: Formula, extra_rows: list[tuple[str, str]] | None = N
     if formula.assumptions:
         parts.append(Text("assumptions: " + "; ".join(formula.assumptions), style="italic"))
     return Panel(Group(*parts), title=title or formula.quantity.replace("_", " "), expand=False)
+
+
+def approximation_rows(approximation: Any) -> list[tuple[str, str]]:
+    """Rows for :func:`formula_panel`: the approximate form, its assumptions and the worst error.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.analyses import output_resistance
+    >>> from symbias.approx import approximate
+    >>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"), "a")
+    >>> approximation_rows(approximate(f, ["RA >> RB"]))[0]
+    ('approx', 'RB')
+    """
+    from ..readable import readable_text
+
+    a = approximation
+    (kept_n, all_n), (kept_d, all_d) = a.kept
+    return [
+        ("approx", readable_text(a.expr)),
+        ("kept terms", f"{kept_n} of {all_n} / {kept_d} of {all_d}"),
+        ("worst error", f"{100 * a.error:.3g} % (tolerance {100 * a.tolerance:.3g} %) at {a.where()}"),
+        ("points", f"{a.corners} corners + {a.admitted - a.corners} random (of {a.samples} drawn) "
+                   f"+ {a.refined} in refinement"),
+        ("magnitudes", "; ".join(a.statements) or "none needed"),
+    ]
+
+
+def sensitivity_table(rows: Any, title: str = "normalised sensitivities S = (x/F) dF/dx") -> Any:
+    """A rich Table of sensitivity rows (symbol, value, expression), in the given (ranked) order."""
+    from rich.table import Table
+    from rich.text import Text
+
+    from ..readable import readable_text
+
+    table = Table(title=title, show_header=True, header_style="bold", box=None, pad_edge=False)
+    table.add_column("symbol")
+    table.add_column("value", justify="right")
+    table.add_column("expression")
+    for row in rows:
+        value = "" if row.value is None else f"{row.value:+.4g}"
+        expr = "" if row.expr is None else readable_text(row.expr, parallel=False)
+        if len(expr) > 70:
+            expr = "(long: see --json or --format markdown)"
+        table.add_row(Text(row.symbol), Text(value), Text(expr))
+    return table
 
 
 def render_to_string(renderable: Any, width: int = 100) -> str:

@@ -1,0 +1,347 @@
+"""Large-signal (DC) bipolar transistor model with temperature laws.
+
+Device level of the numeric side.  The model is the Ebers-Moll transport form
+with the forward Early effect, written as the SPICE Gummel-Poon model reduces
+to when only IS, BF, BR, NF, NR and VAF are given (no high injection, no
+leakage, no series resistances), so that it agrees with a simulator on the
+same parameters::
+
+    Icc = IS (exp(vbe/(NF VT)) - 1)        forward transport current
+    Iec = IS (exp(vbc/(NR VT)) - 1)        reverse transport current
+    qb  = 1 / (1 - vbc/VAF)                base charge (forward Early effect)
+    IC  = (Icc - Iec)/qb - Iec/BR
+    IB  = Icc/BF + Iec/BR + GMIN (vbe + vbc)
+
+Voltages and currents are in the npn frame; a pnp is evaluated with the
+signs of its junction voltages and of its currents flipped (``polarity``).
+A tiny conductance :data:`GMIN` across each junction keeps the nodal
+matrix regular when a device is off, as circuit simulators do.
+
+Temperature (degC in, kelvin inside; the SPICE laws)::
+
+    IS(T) = IS exp((T/Tnom - 1) EG/VT(T)) (T/Tnom)**XTI
+    BF(T) = BF (T/Tnom)**XTB,   BR(T) = BR (T/Tnom)**XTB
+
+All functions take numpy arrays (one entry per device) so the solver
+evaluates every transistor of a circuit in one call.
+
+Examples
+--------
+>>> m = BjtModel.from_params("npn", {"IS": 1e-16, "BF": 100, "VAF": 50})
+>>> t = m.at(27.0)
+>>> c = bjt_currents(0.65, -2.0, t)
+>>> round(float(c.ic / c.ib), 2)
+104.0
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, fields
+from typing import Mapping
+
+import numpy as np
+
+from .temperature import kelvin, thermal_voltage
+
+__all__ = [
+    "BjtModel",
+    "BjtAtTemperature",
+    "BjtCurrents",
+    "BJT_DEFAULTS",
+    "GMIN",
+    "ION_MIN",
+    "SATURATION_FRACTION",
+    "bjt_currents",
+    "bjt_limit",
+    "bjt_region",
+    "bjt_small_signal",
+    "bjt_vcesat",
+    "stack_bjts",
+    "safe_exp",
+]
+
+#: Parameter defaults where neither the netlist nor the process gives one (SPICE defaults).
+BJT_DEFAULTS: dict[str, float] = {
+    "IS": 1e-16, "BF": 100.0, "BR": 1.0, "NF": 1.0, "NR": 1.0, "VAF": math.inf,
+    "XTI": 3.0, "EG": 1.11, "XTB": 0.0, "BVEBO": 6.0,
+}
+
+#: Conductance across each junction (siemens), as circuit simulators add.
+GMIN = 1e-12
+#: A device carrying less than this current (A) is reported as cut off.
+ION_MIN = 1e-12
+#: The collector junction puts a device in saturation when it removes this
+#: fraction of the collector current the active-region law would give.
+SATURATION_FRACTION = 0.01
+
+_EXP_LIMIT = 80.0
+
+
+def safe_exp(x):
+    """exp(x), continued linearly above x = 80 so a wild Newton step cannot overflow.
+
+    Examples
+    --------
+    >>> float(safe_exp(0.0)), bool(np.isfinite(safe_exp(1e4)))
+    (1.0, True)
+    """
+    x = np.asarray(x, dtype=float)
+    clipped = np.minimum(x, _EXP_LIMIT)
+    return np.exp(clipped) * (1.0 + np.maximum(x - _EXP_LIMIT, 0.0))
+
+
+def _safe_exp_slope(x):
+    """d/dx of :func:`safe_exp`."""
+    return np.exp(np.minimum(np.asarray(x, dtype=float), _EXP_LIMIT))
+
+
+@dataclass(frozen=True)
+class BjtModel:
+    """Parameters of a bipolar transistor model (SPICE names, SI units).
+
+    ``VAF`` may be ``inf`` (no Early effect).  ``TNOM`` in degC.  ``BVEBO``
+    (V) is the emitter-base reverse voltage beyond which the solver refuses a
+    result, since the model has no breakdown.
+
+    Examples
+    --------
+    >>> BjtModel.from_params("pnp", {"BF": 50}).polarity
+    -1
+    """
+
+    polarity: int
+    IS: float
+    BF: float
+    BR: float
+    NF: float
+    NR: float
+    VAF: float
+    XTI: float
+    EG: float
+    XTB: float
+    TNOM: float
+    BVEBO: float
+
+    @classmethod
+    def from_params(cls, type_: str, params: Mapping[str, float], tnom: float = 27.0) -> "BjtModel":
+        """Build from upper-case parameters; missing ones take :data:`BJT_DEFAULTS`.
+
+        A ``VAF`` of 0 means "none" (infinite), as in SPICE.
+        """
+        merged = {**BJT_DEFAULTS, "TNOM": tnom, **{k: float(v) for k, v in params.items()}}
+        if merged["VAF"] == 0:
+            merged["VAF"] = math.inf
+        polarity = -1 if type_ == "pnp" else 1
+        names = [f.name for f in fields(cls) if f.name != "polarity"]
+        return cls(polarity, **{name: merged[name] for name in names})
+
+    def at(self, celsius: float, multiplier: float = 1.0) -> "BjtAtTemperature":
+        """Temperature-adjusted values at ``celsius`` for a device of ``multiplier`` unit devices.
+
+        Examples
+        --------
+        >>> m = BjtModel.from_params("npn", {"IS": 1e-16, "XTI": 3, "EG": 1.11})
+        >>> m.at(27.0).is_ == 1e-16
+        True
+        """
+        t, tnom = kelvin(celsius), kelvin(self.TNOM)
+        vt = thermal_voltage(celsius)
+        ratio = t / tnom
+        is_t = self.IS * math.exp((ratio - 1.0) * self.EG / vt + self.XTI * math.log(ratio))
+        beta_factor = ratio**self.XTB
+        return BjtAtTemperature(
+            polarity=self.polarity,
+            is_=is_t,
+            bf=self.BF * beta_factor,
+            br=self.BR * beta_factor,
+            nf=self.NF,
+            nr=self.NR,
+            inv_vaf=0.0 if math.isinf(self.VAF) else 1.0 / self.VAF,
+            vt=vt,
+            mult=float(multiplier),
+        )
+
+
+@dataclass(frozen=True)
+class BjtAtTemperature:
+    """A BJT's numbers at one temperature; fields are floats or equal-length arrays."""
+
+    polarity: object
+    is_: object
+    bf: object
+    br: object
+    nf: object
+    nr: object
+    inv_vaf: object
+    vt: object
+    mult: object
+
+    def vcrit(self):
+        """Junction voltage above which Newton steps are limited (SPICE's critical voltage)."""
+        vtn = self.nf * self.vt
+        return vtn * np.log(vtn / (math.sqrt(2.0) * self.is_))
+
+
+def stack_bjts(items: list[BjtAtTemperature]) -> BjtAtTemperature:
+    """Stack per-device values into one object of arrays (one entry per device).
+
+    Examples
+    --------
+    >>> m = BjtModel.from_params("npn", {})
+    >>> stack_bjts([m.at(27.0), m.at(27.0, 2)]).mult
+    array([1., 2.])
+    """
+    return BjtAtTemperature(**{
+        f.name: np.array([getattr(item, f.name) for item in items], dtype=float) for f in fields(BjtAtTemperature)
+    })
+
+
+@dataclass(frozen=True)
+class BjtCurrents:
+    """Collector and base currents (npn frame) and their partial derivatives."""
+
+    ic: np.ndarray
+    ib: np.ndarray
+    dic_dvbe: np.ndarray
+    dic_dvbc: np.ndarray
+    dib_dvbe: np.ndarray
+    dib_dvbc: np.ndarray
+    icc: np.ndarray
+    iec: np.ndarray
+
+
+def bjt_currents(vbe, vbc, t: BjtAtTemperature) -> BjtCurrents:
+    """Terminal currents in the npn frame at junction voltages ``vbe``, ``vbc``.
+
+    The emitter current is ``-(ic + ib)``.  Derivatives are exact (the solver's
+    Jacobian and the small-signal values both come from them).
+
+    Examples
+    --------
+    >>> t = BjtModel.from_params("npn", {"IS": 1e-16}).at(27.0)
+    >>> c = bjt_currents(0.7, 0.0, t)
+    >>> bool(abs(c.dic_dvbe / c.ic - 1 / t.vt) < 1e-6)
+    True
+    """
+    vbe = np.asarray(vbe, dtype=float)
+    vbc = np.asarray(vbc, dtype=float)
+    vtf = t.nf * t.vt
+    vtr = t.nr * t.vt
+    xf, xr = vbe / vtf, vbc / vtr
+    icc = t.is_ * (safe_exp(xf) - 1.0)
+    iec = t.is_ * (safe_exp(xr) - 1.0)
+    gcc = t.is_ * _safe_exp_slope(xf) / vtf
+    gec = t.is_ * _safe_exp_slope(xr) / vtr
+    early = 1.0 - vbc * t.inv_vaf  # 1/qb
+    ic = (icc - iec) * early - iec / t.br
+    ib = icc / t.bf + iec / t.br + GMIN * (vbe + vbc)
+    m = t.mult
+    return BjtCurrents(
+        ic=m * ic,
+        ib=m * ib,
+        dic_dvbe=m * gcc * early,
+        dic_dvbc=m * (-gec * early - (icc - iec) * t.inv_vaf - gec / t.br),
+        dib_dvbe=m * (gcc / t.bf + GMIN),
+        dib_dvbc=m * (gec / t.br + GMIN),
+        icc=m * icc,
+        iec=m * iec,
+    )
+
+
+def bjt_limit(v_new, v_old, t: BjtAtTemperature, reverse: bool = False):
+    """Limit a Newton update of a junction voltage (the logarithmic pn-junction limiter).
+
+    Above the critical voltage a step of more than two emission voltages is
+    replaced by the step that changes the junction current by the same factor
+    a linear step in current would, so the exponential cannot run away.
+
+    Examples
+    --------
+    >>> t = BjtModel.from_params("npn", {}).at(27.0)
+    >>> float(bjt_limit(5.0, 0.6, t)) < 0.8
+    True
+    """
+    v_new = np.asarray(v_new, dtype=float)
+    v_old = np.asarray(v_old, dtype=float)
+    vtn = (t.nr if reverse else t.nf) * t.vt
+    vcrit = vtn * np.log(vtn / (math.sqrt(2.0) * t.is_))
+    big = (v_new > vcrit) & (np.abs(v_new - v_old) > 2.0 * vtn)
+    arg = 1.0 + (v_new - v_old) / vtn
+    from_on = np.where(arg > 0, v_old + vtn * np.log(np.maximum(arg, 1e-300)), vcrit)
+    from_off = vtn * np.log(np.maximum(v_new / vtn, 1e-300))
+    limited = np.where(v_old > 0, from_on, from_off)
+    return np.where(big, limited, v_new)
+
+
+def bjt_region(c: BjtCurrents, vbc, t: BjtAtTemperature) -> np.ndarray:
+    """Operating region of each device: active, saturation, cutoff or reverse.
+
+    *cutoff*: both transport currents below :data:`ION_MIN`; *reverse*: the
+    collector junction injects more than the emitter junction; *saturation*:
+    the forward-biased collector junction removes more than
+    :data:`SATURATION_FRACTION` of the collector current the active-region law
+    (``Icc/qb``) would give; otherwise *active*.
+
+    Examples
+    --------
+    >>> t = BjtModel.from_params("npn", {"IS": 1e-16}).at(27.0)
+    >>> bjt_region(bjt_currents([0.7, 0.7, 0.0], [-1.0, 0.65, -1.0], t), [-1.0, 0.65, -1.0], t).tolist()
+    ['active', 'saturation', 'cutoff']
+    """
+    early = 1.0 - np.asarray(vbc, dtype=float) * t.inv_vaf
+    forward = c.icc * early
+    deficit = c.iec * (early + 1.0 / t.br)
+    cutoff = (np.abs(c.icc) < ION_MIN * 1.0) & (np.abs(c.iec) < ION_MIN * 1.0)
+    reverse = c.iec > c.icc
+    saturated = deficit > SATURATION_FRACTION * forward
+    return np.where(cutoff, "cutoff", np.where(reverse, "reverse", np.where(saturated, "saturation", "active")))
+
+
+def bjt_small_signal(c: BjtCurrents) -> dict[str, np.ndarray]:
+    """Hybrid-pi values at the operating point: gm, rpi, ro (and beta = gm*rpi).
+
+    They are the exact linearisation with ``vce`` and ``vbe`` as the port
+    voltages (``vbc = vbe - vce``)::
+
+        gm  = dIC/dVBE at constant VCE
+        rpi = 1 / (dIB/dVBE at constant VCE)
+        ro  = 1 / (dIC/dVCE at constant VBE) = (VAF + VCB)/IC in the active region
+
+    Examples
+    --------
+    >>> t = BjtModel.from_params("npn", {"IS": 1e-16, "VAF": 50}).at(27.0)
+    >>> s = bjt_small_signal(bjt_currents(0.7, -2.0, t))
+    >>> sorted(s)
+    ['beta', 'gm', 'ro', 'rpi']
+    """
+    gm = c.dic_dvbe + c.dic_dvbc
+    go = -c.dic_dvbc
+    gpi = c.dib_dvbe + c.dib_dvbc
+    with np.errstate(divide="ignore"):
+        ro = np.where(go > 0, 1.0 / np.where(go > 0, go, 1.0), np.inf)
+        rpi = np.where(gpi > 0, 1.0 / np.where(gpi > 0, gpi, 1.0), np.inf)
+    return {"gm": gm, "rpi": rpi, "ro": ro, "beta": gm * rpi}
+
+
+def bjt_vcesat(vbe, t: BjtAtTemperature, fraction: float = SATURATION_FRACTION):
+    """Collector-emitter voltage at which a device at ``vbe`` enters saturation.
+
+    The edge used by :func:`bjt_region`: the reverse junction removes
+    ``fraction`` of the active-region collector current.  Solved by a few
+    fixed-point steps (the Early factor hardly changes across them).
+
+    Examples
+    --------
+    >>> t = BjtModel.from_params("npn", {"IS": 1e-16, "BR": 1}).at(27.0)
+    >>> round(float(bjt_vcesat(0.7, t)), 3)
+    0.137
+    """
+    vbe = np.asarray(vbe, dtype=float)
+    icc = t.is_ * (np.exp(vbe / (t.nf * t.vt)) - 1.0)
+    vbc = vbe - 0.1
+    for _ in range(6):
+        early = 1.0 - vbc * t.inv_vaf
+        target = fraction * icc * early / (early + 1.0 / t.br)
+        vbc = t.nr * t.vt * np.log1p(target / t.is_)
+    return vbe - vbc

@@ -1,0 +1,285 @@
+"""Large-signal (DC) MOS transistor model with temperature laws.
+
+Device level of the numeric side.  In strong inversion the model *is* the
+square law of SPICE level 1 (Shichman-Hodges), with channel-length
+modulation and the body effect::
+
+    VTH = VTO + GAMMA (sqrt(PHI - vbs) - sqrt(PHI))
+    ID  = beta/2 (F(vgs - VTH)**2 - F(vgd - VTH)**2) (1 + LAMBDA vds),  beta = KP W/L m
+
+where ``F(v) = v`` for ``v >= s`` and ``F(v) = s exp(v/s - 1)`` below, with
+``s = 2 n VT`` and the slope factor ``n = 1 + GAMMA/(2 sqrt(PHI))``.  For
+``v >= s`` on both terms this is exactly level 1 in the triode region, and
+once ``vds`` exceeds the overdrive by a few ``s`` the reverse term vanishes
+and it is level 1 in saturation.  Below ``vgs - VTH = s`` the current falls
+exponentially with the physical subthreshold slope ``n VT`` per e-fold, and
+``F`` joins the square law with matching value and slope (C1), so Newton sees
+no kink.  Like the forward/reverse (EKV-style) form, one expression covers
+subthreshold, saturation and triode with no region switch.
+
+The device is symmetric: when ``vds < 0`` drain and source swap roles.
+Voltages and currents are in the nmos frame; a pmos is evaluated with signs
+flipped (``polarity``); its VTO is given negative, as in SPICE.
+
+Temperature: ``VTO`` magnitude changes by ``TCV`` volt per kelvin and
+``KP(T) = KP (T/Tnom)**BEX`` (mobility).
+
+Examples
+--------
+>>> m = MosModel.from_params("nmos", {"VTO": 0.7, "KP": 100e-6, "LAMBDA": 0.0})
+>>> t = m.at(27.0, w=10e-6, l=1e-6)
+>>> round(float(mos_currents(1.2, 2.0, 0.0, t).id) / (0.5 * 100e-6 * 10 * 0.5**2), 12)
+1.0
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, fields
+from typing import Mapping
+
+import numpy as np
+
+from .bjt import ION_MIN
+from .temperature import kelvin, thermal_voltage
+
+__all__ = [
+    "MosModel",
+    "MosAtTemperature",
+    "MosCurrents",
+    "MOS_DEFAULTS",
+    "mos_currents",
+    "mos_limit",
+    "mos_region",
+    "mos_small_signal",
+    "stack_mos",
+]
+
+#: Parameter defaults where neither the netlist nor the process gives one (SPICE level-1
+#: defaults; TCV and BEX default to no temperature dependence).
+MOS_DEFAULTS: dict[str, float] = {
+    "VTO": 0.0, "KP": 2e-5, "LAMBDA": 0.0, "GAMMA": 0.0, "PHI": 0.6, "TCV": 0.0, "BEX": 0.0,
+}
+
+#: Largest change of vgs (V) the solver takes in one Newton step.
+VGS_STEP = 0.5
+
+
+@dataclass(frozen=True)
+class MosModel:
+    """Parameters of a MOS transistor model (SPICE level-1 names plus TCV, BEX).
+
+    Examples
+    --------
+    >>> MosModel.from_params("pmos", {"VTO": -0.7}).polarity
+    -1
+    """
+
+    polarity: int
+    VTO: float
+    KP: float
+    LAMBDA: float
+    GAMMA: float
+    PHI: float
+    TCV: float
+    BEX: float
+    TNOM: float
+
+    @classmethod
+    def from_params(cls, type_: str, params: Mapping[str, float], tnom: float = 27.0) -> "MosModel":
+        """Build from upper-case parameters; missing ones take :data:`MOS_DEFAULTS`."""
+        merged = {**MOS_DEFAULTS, "TNOM": tnom, **{k: float(v) for k, v in params.items()}}
+        polarity = -1 if type_ == "pmos" else 1
+        names = [f.name for f in fields(cls) if f.name != "polarity"]
+        return cls(polarity, **{name: merged[name] for name in names})
+
+    def at(self, celsius: float, w: float = 1.0, l: float = 1.0, multiplier: float = 1.0) -> "MosAtTemperature":
+        """Temperature-adjusted values at ``celsius`` for a device of size ``w``/``l`` times ``multiplier``.
+
+        Examples
+        --------
+        >>> m = MosModel.from_params("nmos", {"VTO": 0.7, "TCV": -2e-3})
+        >>> round(m.at(127.0).vto, 6)
+        0.5
+        """
+        ratio = kelvin(celsius) / kelvin(self.TNOM)
+        vt = thermal_voltage(celsius)
+        n = 1.0 + self.GAMMA / (2.0 * math.sqrt(self.PHI))
+        return MosAtTemperature(
+            polarity=self.polarity,
+            vto=self.polarity * self.VTO + self.TCV * (celsius - self.TNOM),
+            beta=self.KP * ratio**self.BEX * (w / l) * multiplier,
+            lam=self.LAMBDA,
+            gamma=self.GAMMA,
+            phi=self.PHI,
+            s=2.0 * n * vt,
+            vt=vt,
+        )
+
+
+@dataclass(frozen=True)
+class MosAtTemperature:
+    """A MOS device's numbers at one temperature (nmos frame); floats or equal-length arrays."""
+
+    polarity: object
+    vto: object
+    beta: object
+    lam: object
+    gamma: object
+    phi: object
+    s: object
+    vt: object
+
+
+def stack_mos(items: list[MosAtTemperature]) -> MosAtTemperature:
+    """Stack per-device values into one object of arrays (one entry per device).
+
+    Examples
+    --------
+    >>> m = MosModel.from_params("nmos", {})
+    >>> stack_mos([m.at(27.0), m.at(27.0, w=2.0)]).beta
+    array([2.e-05, 4.e-05])
+    """
+    return MosAtTemperature(**{
+        f.name: np.array([getattr(item, f.name) for item in items], dtype=float) for f in fields(MosAtTemperature)
+    })
+
+
+@dataclass(frozen=True)
+class MosCurrents:
+    """Drain current (nmos frame, into the drain) and its partial derivatives.
+
+    ``vth`` and ``vov`` are those of the side acting as source; ``reversed``
+    marks devices whose drain and source swapped roles.
+    """
+
+    id: np.ndarray
+    did_dvgs: np.ndarray
+    did_dvds: np.ndarray
+    did_dvbs: np.ndarray
+    vth: np.ndarray
+    vov: np.ndarray
+    forward: np.ndarray
+    reversed: np.ndarray
+
+
+def _threshold(vbs, t: MosAtTemperature):
+    """VTH and dVTH/dvbs; for vbs > 0 the level-1 linear continuation of the square root."""
+    sqrt_phi = np.sqrt(t.phi)
+    root = np.sqrt(np.maximum(t.phi - np.minimum(vbs, 0.0), 0.0))
+    linear = sqrt_phi - np.maximum(vbs, 0.0) / (2.0 * sqrt_phi)
+    sarg = np.where(vbs <= 0.0, root, np.maximum(linear, 0.0))
+    dsarg = np.where(vbs <= 0.0, -0.5 / np.where(root > 0, root, 1.0), np.where(linear > 0, -0.5 / sqrt_phi, 0.0))
+    return t.vto + t.gamma * (sarg - sqrt_phi), t.gamma * dsarg
+
+
+def _smooth_overdrive(v, s):
+    """F(v) and F'(v): v above the join s, s*exp(v/s - 1) below (C1 at v = s)."""
+    below = s * np.exp(np.minimum(v / s - 1.0, 0.0))
+    slope = below / s
+    strong = v >= s
+    return np.where(strong, v, below), np.where(strong, 1.0, slope)
+
+
+def _forward_mode(vgs, vds, vbs, t: MosAtTemperature):
+    vth, dvth = _threshold(vbs, t)
+    vov = vgs - vth
+    f, df = _smooth_overdrive(vov, t.s)
+    r, dr = _smooth_overdrive(vov - vds, t.s)
+    clm = 1.0 + t.lam * vds
+    core = 0.5 * t.beta * (f * f - r * r)
+    gm = t.beta * (f * df - r * dr) * clm
+    gds = t.beta * r * dr * clm + core * t.lam
+    gmb = -gm * dvth
+    return core * clm, gm, gds, gmb, vth, vov, 0.5 * t.beta * f * f
+
+
+def mos_currents(vgs, vds, vbs, t: MosAtTemperature) -> MosCurrents:
+    """Drain current (nmos frame) and derivatives at ``vgs``, ``vds``, ``vbs``.
+
+    The source current is ``-id``; the gate draws none.  The solver adds a
+    conductance :data:`~symbias.devices.bjt.GMIN` from drain and from source to
+    bulk, as simulators put across the bulk junctions.
+
+    Examples
+    --------
+    >>> t = MosModel.from_params("nmos", {"VTO": 0.5, "KP": 1e-4}).at(27.0)
+    >>> a, b = mos_currents(1.0, 0.3, 0.0, t), mos_currents(0.7, -0.3, -0.3, t)
+    >>> bool(np.isclose(a.id, -b.id))
+    True
+    """
+    vgs = np.asarray(vgs, dtype=float)
+    vds = np.asarray(vds, dtype=float)
+    vbs = np.asarray(vbs, dtype=float)
+    flip = vds < 0.0
+    # in reverse mode the drain acts as source: vgs' = vgd, vds' = -vds, vbs' = vbd
+    vgs_m = np.where(flip, vgs - vds, vgs)
+    vds_m = np.abs(vds)
+    vbs_m = np.where(flip, vbs - vds, vbs)
+    i_m, gm_m, gds_m, gmb_m, vth, vov, forward = _forward_mode(vgs_m, vds_m, vbs_m, t)
+    return MosCurrents(
+        id=np.where(flip, -i_m, i_m),
+        did_dvgs=np.where(flip, -gm_m, gm_m),
+        did_dvds=np.where(flip, gm_m + gds_m + gmb_m, gds_m),
+        did_dvbs=np.where(flip, -gmb_m, gmb_m),
+        vth=vth,
+        vov=vov,
+        forward=forward,
+        reversed=flip,
+    )
+
+
+def mos_limit(v_new, v_old):
+    """Limit a Newton update of vgs to :data:`VGS_STEP` volt.
+
+    Examples
+    --------
+    >>> float(mos_limit(3.0, 0.0))
+    0.5
+    """
+    v_new = np.asarray(v_new, dtype=float)
+    return np.clip(v_new, v_old - VGS_STEP, v_old + VGS_STEP)
+
+
+def mos_region(c: MosCurrents, vds, t: MosAtTemperature) -> np.ndarray:
+    """Operating region: saturation, triode, subthreshold or cutoff.
+
+    *cutoff*: forward current below :data:`~symbias.devices.bjt.ION_MIN`;
+    *subthreshold*: overdrive below the join ``s = 2 n VT`` of the square law;
+    above it *saturation* when ``|vds| >= vov``, else *triode*.
+
+    Examples
+    --------
+    >>> t = MosModel.from_params("nmos", {"VTO": 0.5, "KP": 1e-4}).at(27.0)
+    >>> mos_region(mos_currents([1.0, 1.0, 0.55, 0.0], [1.0, 0.1, 1.0, 1.0], 0.0, t), [1.0, 0.1, 1.0, 1.0], t).tolist()
+    ['saturation', 'triode', 'subthreshold', 'cutoff']
+    """
+    vds = np.abs(np.asarray(vds, dtype=float))
+    strong = c.vov >= t.s
+    region = np.where(strong, np.where(vds >= c.vov, "saturation", "triode"), "subthreshold")
+    return np.where(c.forward < ION_MIN, "cutoff", region)
+
+
+def mos_small_signal(c: MosCurrents, t: MosAtTemperature) -> dict[str, np.ndarray]:
+    """Small-signal values at the operating point: gm, gmb, ro (device in its normal orientation).
+
+    ``gm = dID/dVGS``, ``gmb = dID/dVBS``, ``ro = 1/(dID/dVDS)``; in saturation
+    these are ``beta*Vov*(1 + LAMBDA*VDS)``, ``gm*GAMMA/(2 sqrt(PHI - VBS))``
+    and ``(1 + LAMBDA*VDS)/(LAMBDA*ID)``.
+
+    Examples
+    --------
+    >>> t = MosModel.from_params("nmos", {"VTO": 0.5, "KP": 1e-4, "LAMBDA": 0.1}).at(27.0)
+    >>> s = mos_small_signal(mos_currents(1.0, 2.0, 0.0, t), t)
+    >>> round(float(s["gm"]) * 1e6, 3), round(float(s["ro"]) / 1e3, 3)
+    (60.0, 800.0)
+    """
+    sign = np.where(c.reversed, -1.0, 1.0)
+    gm = sign * c.did_dvgs
+    gmb = sign * c.did_dvbs
+    # undo the drain/source swap of mos_currents: there did_dvds = gm' + gds' + gmb'
+    gds = np.where(c.reversed, c.did_dvds + c.did_dvgs + c.did_dvbs, c.did_dvds)
+    with np.errstate(divide="ignore"):
+        ro = np.where(gds > 0, 1.0 / np.where(gds > 0, gds, 1.0), np.inf)
+    return {"gm": gm, "gmb": gmb, "ro": ro}
+

@@ -1,0 +1,176 @@
+"""Write ``docs/topologies.md`` from the library files.
+
+A renderer of the library side (:class:`~symbias.library.Topology` ->
+Markdown): a summary table, then one section per topology with its
+description, netlist, roles, design variables, published formulas in LaTeX
+(with assumptions and source) and references.  The output depends only on the
+library files, so a test can check that the committed page is up to date.
+
+Command line::
+
+    python -m symbias.library_docs docs/topologies.md           # write
+    python -m symbias.library_docs docs/topologies.md --check   # exit 1 when out of date
+
+Examples
+--------
+>>> from symbias.library import load_library, shipped_dir
+>>> page = render_markdown(load_library([shipped_dir()]).values())
+>>> page.splitlines()[0]
+'# Topology library'
+"""
+
+from __future__ import annotations
+
+import argparse
+import re
+import sys
+from pathlib import Path
+from typing import Iterable
+
+__all__ = ["render_markdown", "latex_symbol", "formula_latex", "main"]
+
+_GREEK = {"beta": r"\beta", "rpi": r"r_{\pi}", "pi": r"\pi", "lambda": r"\lambda", "gamma": r"\gamma"}
+_PARAMETERS = ("gmb", "gm", "rpi", "ro", "rmu", "rb", "re", "beta")
+
+
+def latex_symbol(name: str) -> str:
+    """LaTeX of a symbol name under the naming convention (``gm_Q1`` -> ``g_{m,Q1}``).
+
+    Examples
+    --------
+    >>> latex_symbol("gm_Q1"), latex_symbol("rpi"), latex_symbol("beta_Q3"), latex_symbol("RE")
+    ('g_{m,Q1}', 'r_{\\\\pi}', '\\\\beta_{Q3}', 'R_{E}')
+    """
+    base, _, device = name.partition("_")
+    if base in _PARAMETERS:
+        if base == "beta":
+            head = r"\beta"
+            return f"{head}_{{{device}}}" if device else head
+        if base == "rpi":
+            return f"r_{{\\pi,{device}}}" if device else r"r_{\pi}"
+        letter, sub = base[0], base[1:]
+        return f"{letter}_{{{sub},{device}}}" if device else f"{letter}_{{{sub}}}"
+    if name in _GREEK:
+        return _GREEK[name]
+    match = re.fullmatch(r"([A-Za-z])([A-Za-z0-9]+)", name)
+    if match and not device:
+        return f"{match.group(1)}_{{{match.group(2)}}}"
+    return name.replace("_", r"\_")
+
+
+def formula_latex(text: str) -> str:
+    """LaTeX of a library formula string.
+
+    Examples
+    --------
+    >>> formula_latex("beta*ro/2")
+    '\\\\frac{\\\\beta r_{o}}{2}'
+    """
+    import sympy
+
+    from .expressions import parse_expression
+
+    expr = parse_expression(text)
+    return sympy.latex(expr, symbol_names={s: latex_symbol(s.name) for s in expr.free_symbols})
+
+
+def _devices(topology) -> str:
+    from collections import Counter
+
+    circuit = topology.circuit()
+    counts = Counter(circuit.model_of(d).type for d in circuit.devices)
+    return ", ".join(f"{n} {kind}" for kind, n in sorted(counts.items()))
+
+
+def _cell(text: str) -> str:
+    return text.replace("|", r"\|")
+
+
+def _section(topology) -> list[str]:
+    out = [f"## {topology.title}", "", f"`{topology.id}`: {topology.family}, {topology.technology}", "",
+           topology.description, "", "```spice", topology.netlist.rstrip(), "```", ""]
+    roles = ", ".join(f"{k}: `{', '.join(v) if isinstance(v, tuple) else v}`" for k, v in topology.roles.items())
+    out += [f"Roles: {roles}.", ""]
+    if topology.headroom:
+        parts = [f"{k} ${formula_latex(v)}$" for k, v in topology.headroom.items()]
+        out += ["Headroom: " + "; ".join(parts) + ".", ""]
+    if topology.variables:
+        out += ["| variable | default | unit | sizing rule |", "|---|---|---|---|"]
+        for v in topology.variables:
+            rule = v.rule + (f" (`{v.expr}`)" if v.expr else "")
+            out.append(f"| `{v.name}` | {v.default} | {v.unit} | {_cell(rule)} |")
+        out.append("")
+    if topology.formulas:
+        out += ["Published forms (each checked against the engine's derivation in the test suite):", ""]
+        for f in topology.formulas:
+            out += [f"- {f.quantity.replace('_', ' ')}, {f.form}:", "",
+                    f"  $$ {formula_latex(f.expr)} $$", "",
+                    f"  Assumptions: {'; '.join(f.assumptions)}. Source: {f.source}.", ""]
+    out += ["References:", ""]
+    out += [f"- {ref.text}" for ref in topology.references]
+    out.append("")
+    return out
+
+
+def render_markdown(topologies: Iterable) -> str:
+    """The Markdown page of the given topologies (sorted by family, technology and identifier)."""
+    from .library import FAMILIES
+
+    chosen = sorted(topologies, key=lambda t: (FAMILIES.index(t.family), t.technology, t.id))
+    out = [
+        "# Topology library",
+        "",
+        "Generated from `topologies/*.toml` by `python -m symbias.library_docs docs/topologies.md`; do not edit",
+        "by hand (a test checks that this page is up to date). The file format is described in",
+        "[library-format.md](library-format.md).",
+        "",
+        "Formulas are design aids: sign-off needs full simulation and measurement, and high-voltage or",
+        "safety-relevant circuits follow local codes and licensed practice. Sources marked \"from memory\"",
+        "were recalled without the book at hand; \"common practice\" marks a fact of the trade.",
+        "",
+        "| identifier | title | family | technology | devices |",
+        "|---|---|---|---|---|",
+    ]
+    for t in chosen:
+        out.append(f"| [`{t.id}`](#{_anchor(t.title)}) | {_cell(t.title)} | {t.family} | {t.technology} "
+                   f"| {_devices(t)} |")
+    out.append("")
+    for t in chosen:
+        out += _section(t)
+    return "\n".join(out).rstrip() + "\n"
+
+
+def _anchor(title: str) -> str:
+    """GitHub-style heading anchor."""
+    text = re.sub(r"[^\w\- ]", "", title.lower())
+    return text.replace(" ", "-")
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Write (or with ``--check`` compare) the library page; return the exit status."""
+    from .errors import SymbiasError
+    from .library import load_library, shipped_dir
+
+    parser = argparse.ArgumentParser(prog="python -m symbias.library_docs",
+                                     description="Generate docs/topologies.md from the topology library.")
+    parser.add_argument("output", help="Markdown file to write, e.g. docs/topologies.md")
+    parser.add_argument("--check", action="store_true", help="do not write; exit 1 if the file is out of date")
+    args = parser.parse_args(argv)
+    try:
+        page = render_markdown(load_library([shipped_dir()]).values())
+    except SymbiasError as err:
+        print(str(err), file=sys.stderr)
+        return 2
+    path = Path(args.output)
+    if args.check:
+        current = path.read_text(encoding="utf-8") if path.exists() else ""
+        if current != page:
+            print(f"{path}: out of date; run python -m symbias.library_docs {path}", file=sys.stderr)
+            return 1
+        return 0
+    path.write_text(page, encoding="utf-8")
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
