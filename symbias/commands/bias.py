@@ -20,6 +20,7 @@ import argparse
 import json
 import sys
 
+from ..render.text import engineering
 from .dc_common import DESIGN_AID, add_dc_arguments, json_safe, load_inputs
 from .dc_common import console as dc_console
 
@@ -40,21 +41,6 @@ def register(subparsers) -> None:
     p.set_defaults(func=run)
 
 
-def _engineering(value: float, unit: str) -> str:
-    if value != value:  # nan
-        return "-"
-    if value in (float("inf"), float("-inf")):
-        return "inf"
-    if value == 0:
-        return f"0{unit}"
-    prefixes = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
-                (1e-12, "p"), (1e-15, "f")]
-    for scale, prefix in prefixes:
-        if abs(value) >= scale:
-            return f"{value / scale:.4g}{prefix}{unit}"
-    return f"{value:.3g}{unit}"
-
-
 def operating_point_table(op):
     """Rich renderables for an operating point: nodes, sources, devices."""
     from rich.table import Table
@@ -69,7 +55,7 @@ def operating_point_table(op):
     sources.add_column("element")
     sources.add_column("I", justify="right")
     for name, value in {**op.branch_currents, **op.element_currents}.items():
-        sources.add_row(name, _engineering(value, "A"))
+        sources.add_row(name, engineering(value, "A"))
     devices = Table(title=f"Devices at {op.temperature:g} degC", title_justify="left")
     for column in ("device", "type", "region", "IC/ID", "VBE/VGS", "VCE/VDS", "gm", "rpi/gmb", "ro", "VCEsat/Vov"):
         devices.add_column(column, justify="left" if column in ("device", "type", "region") else "right",
@@ -80,12 +66,12 @@ def operating_point_table(op):
         s = dev.small_signal
         devices.add_row(
             name, dev.type, dev.region,
-            _engineering(dev.output_current, "A"),
+            engineering(dev.output_current, "A"),
             f"{(v['vbe'] if bjt else v['vgs']):.4f}",
             f"{(v['vce'] if bjt else v['vds']):.3f}",
-            _engineering(s["gm"], "S"),
-            _engineering(s["rpi"], "\u03a9") if bjt else _engineering(s["gmb"], "S"),
-            _engineering(s["ro"], "\u03a9"),
+            engineering(s["gm"], "S"),
+            engineering(s["rpi"], "\u03a9") if bjt else engineering(s["gmb"], "S"),
+            engineering(s["ro"], "\u03a9"),
             f"{(dev.limits['vcesat'] if bjt else dev.limits['vov']):.3f}",
         )
     return nodes, sources, devices

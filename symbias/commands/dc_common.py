@@ -16,7 +16,7 @@ from typing import Any
 
 from ..errors import CircuitError
 
-__all__ = ["add_dc_arguments", "parse_assignments", "load_inputs", "json_safe", "console", "DESIGN_AID"]
+__all__ = ["add_dc_arguments", "parse_assignments", "load_inputs", "design_defaults", "json_safe", "console", "DESIGN_AID"]
 
 DESIGN_AID = ("Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
               "circuits follow local codes and licensed practice.")
@@ -59,9 +59,16 @@ def load_inputs(args: argparse.Namespace):
     from ..process import load_process
     from .derive import load_target
 
-    circuit, _ = load_target(args.netlist)
+    circuit, topology = load_target(args.netlist, getattr(args, "library", None))
     process = load_process(args.process) if args.process else None
-    return circuit, process, parse_assignments(args.set, "--set"), parse_assignments(args.guess, "--guess")
+    values = design_defaults(topology)
+    values.update(parse_assignments(args.set, "--set"))
+    return circuit, process, values, parse_assignments(args.guess, "--guess")
+
+
+def design_defaults(topology) -> dict[str, float]:
+    """Default numbers of a library topology's design variables (empty for a plain netlist)."""
+    return {v.name: float(v.value) for v in getattr(topology, "variables", ()) or ()}
 
 
 def json_safe(data: Any) -> Any:

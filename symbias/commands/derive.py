@@ -75,6 +75,13 @@ def register(subparsers) -> None:
                         help="normalised sensitivities (x/F) dF/dx, ranked at the centre of the assumed ranges")
     approx.add_argument("--mirror-error", action="store_true",
                         help="for current gains: error 1 - gain/ideal, to leading order and split by cause")
+    bias = p.add_argument_group("numbers at the DC operating point")
+    bias.add_argument("--at-bias", action="store_true",
+                      help="solve the DC operating point and evaluate each result with its gm, rpi, ro, gmb")
+    bias.add_argument("--process", metavar="FILE", help="process file (TOML) for --at-bias; .model cards override it")
+    bias.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature for --at-bias (degC)")
+    bias.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
+                      help="number for a free netlist symbol (repeatable); library defaults otherwise")
     out = p.add_argument_group("output")
     out.add_argument("--format", choices=("text", "latex", "markdown", "json", "python"), default=None,
                      help="output form (default text)")
@@ -222,6 +229,7 @@ def run(args: argparse.Namespace) -> int:
         function = QUANTITIES[quantity][0]
         formula = function(circuit, *arguments, options=options, backend=args.backend)
         results.append(_extras(args, formula))
+    at_bias = bias_point(args, circuit, topology, options) if args.at_bias else None
     # everything is computed before anything is printed: a failure writes nothing
     if form == "json":
         from ..render.json import dumps, formula_record
@@ -231,6 +239,8 @@ def run(args: argparse.Namespace) -> int:
             record = formula_record(r.formula, r.approximation, r.sensitivities, r.point)
             if r.error is not None:
                 record["transfer_error"] = _error_record(r.error)
+            if at_bias is not None:
+                record["at_bias"] = _value_at(r.formula, at_bias)
             records.append(record)
         header = {"circuit": circuit.title, "source": circuit.path or args.netlist}
         if len(records) == 1:
@@ -270,6 +280,8 @@ def run(args: argparse.Namespace) -> int:
     console.print(f"[bold]{circuit.title}[/bold]  ({circuit.path or args.netlist})")
     for r in results:
         rows = approximation_rows(r.approximation) if r.approximation is not None else []
+        if at_bias is not None:
+            rows.insert(0, ("at the operating point", _value_text(r.formula, at_bias)))
         if r.error is not None:
             rows.append(("error 1 - gain/ideal", f"~ {r.error.leading.text}  (worst error "
                                                  f"{100 * r.error.leading.error:.3g} %; ideal {r.error.ideal.expr})"))
@@ -281,3 +293,46 @@ def run(args: argparse.Namespace) -> int:
             console.print(sensitivity_table(r.sensitivities, title=f"sensitivities S = (x/F) dF/dx at {point}"))
     console.print("[dim]Design aid: sign-off needs full simulation and measurement.[/dim]")
     return 0
+
+
+def bias_point(args: argparse.Namespace, circuit, topology, options) -> dict[str, float]:
+    """Symbol values at the DC operating point: device gm, rpi, ro, gmb plus netlist numbers.
+
+    Matched symbols take the values of the first device of their group,
+    normalised by its multiplier (see :func:`symbias.network.bias_values`).
+    """
+    from ..dc.operating_point import operating_point
+    from ..network import bias_values
+    from ..process import load_process
+    from .dc_common import design_defaults, parse_assignments
+
+    values = design_defaults(topology)
+    values.update(parse_assignments(args.set, "--set"))
+    process = load_process(args.process) if args.process else None
+    point = operating_point(circuit, process, args.temp, values)
+    numbers = dict(values)
+    numbers.update(bias_values(circuit, point.small_signal_values(), options))
+    numbers["temperature_degC"] = args.temp
+    return numbers
+
+
+def _value_at(formula, values: dict[str, float]) -> float | None:
+    import math
+
+    missing = [s.name for s in formula.symbols if s.name not in values]
+    if missing:
+        return None
+    number = complex(formula.evaluate(values))
+    value = number.real if abs(number.imag) <= 1e-12 * abs(number) else abs(number)
+    return value if math.isfinite(value) else None
+
+
+def _value_text(formula, values: dict[str, float]) -> str:
+    from ..render.text import engineering
+
+    missing = [s.name for s in formula.symbols if s.name not in values]
+    if missing:
+        return f"needs {', '.join(missing)} (not set by the operating point; use --set)"
+    value = _value_at(formula, values)
+    shown = "infinite" if value is None else engineering(value)
+    return f"{shown} {formula.unit} at {values['temperature_degC']:g} degC"

@@ -17,11 +17,34 @@ import sympy
 
 from ..formula import Formula
 
-__all__ = ["formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
+__all__ = [
+    "engineering","formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
            "DISPLAY_TERMS"]
 
 #: Results with more terms than this are summarised, not printed in full.
 DISPLAY_TERMS = 400
+
+
+def engineering(value: float, unit: str = "") -> str:
+    """A number in engineering notation with an SI prefix, e.g. ``1.224M`` + unit.
+
+    Examples
+    --------
+    >>> engineering(1.2244e6, "ohm"), engineering(4.94e-5, "A"), engineering(0.0)
+    ('1.224Mohm', '49.4uA', '0')
+    """
+    if value != value:  # nan
+        return "-"
+    if value in (float("inf"), float("-inf")):
+        return "inf"
+    if value == 0:
+        return f"0{unit}"
+    prefixes = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+                (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
+    for scale, prefix in prefixes:
+        if abs(value) >= scale:
+            return f"{value / scale:.4g}{prefix}{unit}"
+    return f"{value:.3g}{unit}"
 
 
 def readable(expr: sympy.Expr) -> str:
