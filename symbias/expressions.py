@@ -48,6 +48,23 @@ FUNCTIONS = {
     "abs": sympy.Abs,
 }
 
+#: Largest magnitude of a numeric exponent in an expression (``x**64`` is already far beyond any real use).
+MAX_EXPONENT = 64
+
+#: Largest decimal exponent of a number (IEEE doubles end near 1e308).
+MAX_DECIMAL_EXPONENT = 308
+
+#: Longest number, in characters (no real component value needs more).
+MAX_DIGITS = 400
+
+#: Largest exact number (in bits) a power of numbers may produce.
+MAX_BITS = 4096
+
+
+def _bits(value: sympy.Rational) -> int:
+    return max(int(value.p).bit_length(), int(value.q).bit_length())
+
+
 _NUMBER = re.compile(r"^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)([a-zA-Z]*)$")
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 
@@ -69,6 +86,13 @@ def try_parse_number(text: str) -> sympy.Rational | None:
     if not match:
         return None
     mantissa, letters = match.groups()
+    exponent = re.search(r"[eE]([+-]?\d+)$", mantissa)
+    if exponent and abs(int(exponent.group(1))) > MAX_DECIMAL_EXPONENT:
+        # an exact 10**999999999 would take minutes to build; no real value is near it
+        raise NetlistError(f"number {text.strip()!r} is out of range (exponent beyond +-{MAX_DECIMAL_EXPONENT})")
+    if len(mantissa) > MAX_DIGITS:
+        # Python refuses to convert integers of more than 4300 digits from text
+        raise NetlistError(f"number {text.strip()[:20]!r}... has more than {MAX_DIGITS} characters")
     value = sympy.Rational(mantissa)
     letters = letters.lower()
     if letters.startswith("meg"):
@@ -145,7 +169,7 @@ class _Parser:
         value = self.sum()
         if self.peek() is not None:
             raise NetlistError(f"unexpected {self.peek()[1]!r} in expression {self.text.strip()!r}")
-        return value
+        return _finite_real(value, self.text)
 
     def sum(self) -> sympy.Expr:
         value = self.product()
@@ -180,6 +204,13 @@ class _Parser:
         if self.peek() in (("op", "**"), ("op", "^")):
             self.take()
             exponent = self.unary()  # right-associative, allows 2**-1
+            if exponent.is_Number and abs(exponent) > MAX_EXPONENT:
+                # exact arithmetic would build 9**9**9 digit by digit: refuse instead of hanging
+                raise NetlistError(
+                    f"exponent {exponent} in expression {self.text.strip()!r} is too large (at most {MAX_EXPONENT})"
+                )
+            if exponent.is_Number and base.is_Rational and _bits(base) * abs(exponent) > MAX_BITS:
+                raise NetlistError(f"number {base}**{exponent} in expression {self.text.strip()!r} is too large")
             return base**exponent
         return base
 
@@ -205,6 +236,19 @@ class _Parser:
             self.expect(")")
             return value
         raise NetlistError(f"unexpected {text!r} in expression {self.text.strip()!r}")
+
+
+def _finite_real(value: sympy.Expr, text: str) -> sympy.Expr:
+    """``value`` if it is real and finite (a number also within float range), else a NetlistError."""
+    bad = value.has(sympy.I, sympy.zoo, sympy.oo, sympy.nan)
+    if not bad and value.is_number and not value.is_Rational:
+        magnitude = abs(value.evalf(20))  # e.g. exp(1e6), far beyond any float
+        bad = not (value.is_real and magnitude.is_finite) or magnitude > 10**MAX_DECIMAL_EXPONENT or (
+            0 < magnitude < sympy.Float(10) ** -MAX_DECIMAL_EXPONENT
+        )
+    if bad:
+        raise NetlistError(f"expression {text.strip()!r} is not a finite real number")
+    return value
 
 
 def parse_expression(text: str, names: Mapping[str, sympy.Expr] | None = None) -> sympy.Expr:

@@ -271,6 +271,9 @@ def _add_params(line: Line, params: dict[str, sympy.Expr]) -> None:
 
 def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) -> list[Element]:
     tokens = _tokens(line.text)
+    if not tokens:  # e.g. a line of parentheses or commas only
+        raise NetlistError(f"cannot read {line.text.strip()[:40]!r}: expected an element or a dot card",
+                           line=line.number)
     name = tokens[0]
     letter = name[0].upper()
     if letter == "X":

@@ -113,7 +113,9 @@ class FlintRing(Ring):
         self._flint = flint
         self.names = tuple(names)
         # flint needs at least one generator; a dummy one never appears in results
-        self._ctx = flint.fmpq_mpoly_ctx.get(self.names or ("_unused",), "lex")
+        # flint wants ASCII generator names; the user's names (``gm_Qµ``) stay in ``self.names``
+        internal = tuple(f"x{i}" for i in range(len(self.names)))
+        self._ctx = flint.fmpq_mpoly_ctx.get(internal or ("_unused",), "lex")
         self._gens = self._ctx.gens()[: len(self.names)]
 
     @property
@@ -129,7 +131,8 @@ class FlintRing(Ring):
             return []
         size = len(self.names)
         return [
-            (tuple(exps[:size]), Fraction(int(c.p), int(c.q)))
+            # plain ints: flint's fmpz exponents break numpy powers in Formula.evaluate
+            (tuple(int(e) for e in exps[:size]), Fraction(int(c.p), int(c.q)))
             for exps, c in zip(poly.monoms(), poly.coeffs())
         ]
 
