@@ -212,6 +212,8 @@ def output_resistance(
     a, b = where
     if a == b:
         raise CircuitError(f"port {port!r} has both terminals on node {a!r}", path=circuit.path)
+    if where.removed:
+        _check_removable(circuit, where.removed)
     reduced = circuit.without(where.removed) if where.removed else circuit
     network = expand(reduced, options)
     for node in (a, b):
@@ -329,6 +331,19 @@ def transconductance(
     problem = LinearProblem(expand(circuit, options), rhs=((f"i:{src.name}", 1),), observe=((f"i:{out.name}", -1),))
     return _formula(problem, quantity="transconductance", label=f"i({out.name})/v({src.name})", unit="A/V",
                     circuit=circuit, options=options, driven=src.name, backend=backend)
+
+
+def _check_removable(circuit: Circuit, name: str) -> None:
+    """A port element that controls an F or H source cannot be removed."""
+    element = circuit.element(name)
+    for other in circuit.elements_of("F", "H"):
+        if (other.control or "").lower() == element.key:
+            raise CircuitError(
+                f"port {element.name} cannot be opened: it senses the current controlling {other.name} "
+                "(put a separate 0 V source in series and use that as the port)",
+                path=circuit.path,
+                line=element.line,
+            )
 
 
 def _output_nodes(circuit: Circuit, output: str) -> tuple[str, str]:

@@ -61,6 +61,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; return the exit status."""
+    for stream in (sys.stdout, sys.stderr):
+        # a netlist may hold any characters; never fail on a terminal that cannot show them
+        if hasattr(stream, "reconfigure"):
+            stream.reconfigure(errors="backslashreplace")
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):

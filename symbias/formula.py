@@ -107,8 +107,8 @@ class Formula:
         ring = solution.ring
         num, den = solution.numerator, solution.denominator
         if cancel and ring.nterms(num) + ring.nterms(den) < CANCEL_TERMS and not ring.is_zero(num):
-            common = ring.gcd(num, den)
-            if ring.nterms(common) > 1 or any(ring.degrees(common)):
+            common = _common_factor(ring, num, den)
+            if common is not None:
                 num, den = ring.exact_div(num, common), ring.exact_div(den, common)
         num, den = _normalise(ring, num, den)
         return cls(ring=ring, variables=solution.variables, numerator=num, denominator=den, **fields)
@@ -149,41 +149,43 @@ class Formula:
         sympy Symbol (or a sub-expression for non-polynomial values); both
         lists are multiplied by the same monomial so every exponent is >= 0.
         """
-        keyed = []
-        keys: list[tuple[Any, int]] = []
-        for variable in self.variables:
-            if variable.power:
-                keys.append((sympy.Symbol(variable.symbol), variable.power))
-            elif variable.meaning.is_Pow and variable.meaning.exp == -1:
-                keys.append((variable.meaning.base, -1))
-            else:
-                keys.append((variable.meaning, 1))
-        for poly in (self.numerator, self.denominator):
-            terms = []
-            for exps, coeff in self.ring.terms(poly):
-                powers: dict[Any, int] = {}
-                for (key, sign), e in zip(keys, exps):
-                    if e:
-                        powers[key] = powers.get(key, 0) + sign * e
-                terms.append((powers, coeff))
-            keyed.append(terms)
-        lowest: dict[Any, int] = {}
-        for terms in keyed:
-            for powers, _ in terms:
-                for key, e in powers.items():
-                    lowest[key] = min(lowest.get(key, 0), e)
-        shift = {k: -e for k, e in lowest.items() if e < 0}
+        keys, matrix = self._user_key_matrix()
+        polys = [self.ring.terms(self.numerator), self.ring.terms(self.denominator)]
+        exponents = []
+        for terms in polys:
+            raw = np.array([e for e, _ in terms], dtype=np.int64).reshape(len(terms), len(self.variables))
+            exponents.append(raw @ matrix)
+        stacked = np.vstack(exponents) if any(len(t) for t in polys) else np.zeros((0, len(keys)), np.int64)
+        shift = np.maximum(0, -stacked.min(axis=0)) if len(stacked) else np.zeros(len(keys), np.int64)
         out = []
-        for terms in keyed:
-            shifted = []
-            for powers, coeff in terms:
-                new = {k: e + shift.get(k, 0) for k, e in powers.items()}
-                for k, e in shift.items():
-                    if k not in powers:
-                        new[k] = e
-                shifted.append(({k: e for k, e in new.items() if e}, coeff))
-            out.append(shifted)
+        for terms, user in zip(polys, exponents):
+            shifted = user + shift
+            rows = []
+            for (_, coeff), row in zip(terms, shifted.tolist()):
+                rows.append(({keys[k]: e for k, e in enumerate(row) if e}, coeff))
+            out.append(rows)
         return out[0], out[1]
+
+    def _user_key_matrix(self) -> tuple[list[Any], np.ndarray]:
+        """User factors and the matrix mapping generator exponents to their exponents."""
+        keys: list[Any] = []
+        index: dict[Any, int] = {}
+        entries = []
+        for v, variable in enumerate(self.variables):
+            if variable.power:
+                key, sign = sympy.Symbol(variable.symbol), variable.power
+            elif variable.meaning.is_Pow and variable.meaning.exp == -1:
+                key, sign = variable.meaning.base, -1
+            else:
+                key, sign = variable.meaning, 1
+            if key not in index:
+                index[key] = len(keys)
+                keys.append(key)
+            entries.append((v, index[key], sign))
+        matrix = np.zeros((len(self.variables), len(keys)), dtype=np.int64)
+        for v, k, sign in entries:
+            matrix[v, k] = sign
+        return keys, matrix
 
     def _check_budget(self) -> None:
         total = sum(self.nterms)
@@ -282,9 +284,25 @@ class Formula:
         if route == "solve":
             if self.problem is None:
                 raise AnalysisError(f"{self.label} has no network to solve numerically")
-            return np.asarray(solve_problem(self.problem, values))
+            return np.asarray(solve_problem(self.problem, self._network_values(values)))
         generators = self.generator_values(values)
         return _evaluate_ratio(self._compiled, generators, self._used_generators)
+
+    def _network_values(self, values: Mapping[Any, Any]) -> dict[str, Any]:
+        """User values plus 1.0 for network symbols that cancelled out of the result.
+
+        The numeric route solves the whole network, which may hold symbols the
+        exact result does not depend on (the simple mirror's Rout is ``ro_Q2``
+        alone); any non-zero value gives the same result for those.
+        """
+        values = normalise_values(values)
+        missing = [s.name for s in self.symbols if s.name not in values]
+        if missing:
+            raise AnalysisError(f"no value given for {', '.join(missing)}")
+        filled = dict(values)
+        for symbol in self.problem.network.symbols:
+            filled.setdefault(symbol.name, 1.0)
+        return filled
 
     # -- calculus -------------------------------------------------------------------
     def derivative(self, symbol: str | sympy.Symbol) -> "Formula":
@@ -328,6 +346,31 @@ class Formula:
         )
 
 
+def _common_factor(ring: Ring, num, den):
+    """The non-constant gcd of two polynomials, or None when they are coprime.
+
+    The gcd is computed with python-flint even for the sympy backend (its own
+    gcd took seconds where flint takes milliseconds); the factor is then
+    brought back into the caller's ring.
+    """
+    if ring.backend != "flint":
+        try:
+            from .polys import make_ring
+
+            fast = make_ring(ring.names, "flint")
+        except ImportError:  # pragma: no cover - flint is a dependency
+            fast = ring
+        if fast is not ring:
+            common = fast.gcd(fast.from_terms(ring.terms(num)), fast.from_terms(ring.terms(den)))
+            if fast.nterms(common) <= 1 and not any(fast.degrees(common)):
+                return None
+            return ring.from_terms(fast.terms(common))
+    common = ring.gcd(num, den)
+    if ring.nterms(common) <= 1 and not any(ring.degrees(common)):
+        return None
+    return common
+
+
 def _normalise(ring: Ring, num, den):
     if ring.is_zero(den):
         raise AnalysisError("the result has a zero denominator")
@@ -358,13 +401,19 @@ def _terms_to_expr(terms) -> sympy.Expr:
 def _terms_to_text(terms) -> str:
     if not terms:
         return "0"
+    names: dict[Any, str] = {}
+
+    def name(key: Any) -> str:
+        if key not in names:
+            names[key] = key.name if isinstance(key, sympy.Symbol) else f"({key})"
+        return names[key]
+
     out = []
     for powers, coeff in terms:
         factors = []
         if coeff != 1 or not powers:
             factors.append(f"({coeff})" if coeff.denominator != 1 or coeff < 0 else str(coeff))
-        for key, e in sorted(powers.items(), key=lambda kv: str(kv[0])):
-            text = str(key) if isinstance(key, sympy.Symbol) else f"({key})"
+        for text, e in sorted((name(key), e) for key, e in powers.items()):
             factors.append(text if e == 1 else f"{text}**{e}")
         out.append("*".join(factors))
     return " + ".join(out)

@@ -490,7 +490,8 @@ def _singular_reason(network: LinearNetwork, entries, labels) -> str:
             continue
         ends = [node_index.get(n, -1) for n in p.nodes[:2]]
         graph.add_edge(*ends)
-    floating = [labels[i][2:] for comp in nx.connected_components(graph) if -1 not in comp for i in comp if i >= 0]
+    floating = [labels[i][2:] for comp in nx.connected_components(graph) if -1 not in comp for i in comp
+                if i >= 0 and labels[i].startswith("v:")]
     if floating:
         return ("the network is singular: node(s) " + ", ".join(sorted(set(floating)))
                 + " float (no small-signal path to ground once sources are zeroed)")

@@ -135,7 +135,11 @@ def solve_problem(problem, values: Mapping[str, Any]) -> np.ndarray:
     for label, coefficient in problem.rhs:
         rhs[..., index[label], 0] += coefficient
     try:
-        x = np.linalg.solve(matrix, rhs)[..., 0]
+        x = np.linalg.solve(matrix, rhs)
+        # one step of iterative refinement: high-gain cascodes are ill-conditioned
+        # enough that a plain float64 solve loses several digits
+        x = x + np.linalg.solve(matrix, rhs - matrix @ x)
+        x = x[..., 0]
     except np.linalg.LinAlgError:
         raise AnalysisError("the network is singular at the given values") from None
     result = 0

@@ -132,7 +132,7 @@ class FlintRing(Ring):
         size = len(self.names)
         return [
             # plain ints: flint's fmpz exponents break numpy powers in Formula.evaluate
-            (tuple(int(e) for e in exps[:size]), Fraction(int(c.p), int(c.q)))
+            (tuple(map(int, exps[:size])), Fraction(int(c.p), int(c.q)))
             for exps, c in zip(poly.monoms(), poly.coeffs())
         ]
 
