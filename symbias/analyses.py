@@ -249,13 +249,7 @@ def current_gain(
     >>> current_gain(c, "Vout", "I1").expr
     RA/(RA + RB)
     """
-    options = options or SmallSignalOptions()
-    out = _source(circuit, output, ("V",), "output")
-    src = _source(circuit, input, ("I",), "input")
-    network = expand(circuit, options)
-    problem = LinearProblem(network, rhs=_drive_current(src), observe=((f"i:{out.name}", -1),))
-    return _formula(problem, quantity="current_gain", label=f"i({out.name})/i({src.name})", unit="A/A",
-                    circuit=circuit, options=options, driven=src.name, backend=backend)
+    return _transfer(circuit, output, input, options, backend, "current_gain")
 
 
 def transimpedance(
@@ -274,12 +268,7 @@ def transimpedance(
     >>> transimpedance(c, "a", "I1").expr
     RA
     """
-    options = options or SmallSignalOptions()
-    a, b = _output_nodes(circuit, output)
-    src = _source(circuit, input, ("I",), "input")
-    problem = LinearProblem(expand(circuit, options), rhs=_drive_current(src), observe=_voltage(a, b))
-    return _formula(problem, quantity="transimpedance", label=f"v({output})/i({src.name})", unit="V/A",
-                    circuit=circuit, options=options, driven=src.name, backend=backend)
+    return _transfer(circuit, output, input, options, backend, "transimpedance")
 
 
 def voltage_gain(
@@ -301,12 +290,7 @@ def voltage_gain(
     >>> voltage_gain(c, "b", "V1").expr
     RB/(RA + RB)
     """
-    options = options or SmallSignalOptions()
-    a, b = _output_nodes(circuit, output)
-    src = _source(circuit, input, ("V",), "input")
-    problem = LinearProblem(expand(circuit, options), rhs=((f"i:{src.name}", 1),), observe=_voltage(a, b))
-    return _formula(problem, quantity="voltage_gain", label=f"v({output})/v({src.name})", unit="V/V",
-                    circuit=circuit, options=options, driven=src.name, backend=backend)
+    return _transfer(circuit, output, input, options, backend, "voltage_gain")
 
 
 def transconductance(
@@ -325,12 +309,34 @@ def transconductance(
     >>> transconductance(c, "Vout", "V1").expr
     -1/RA
     """
+    return _transfer(circuit, output, input, options, backend, "transconductance")
+
+
+#: Transfer quantity -> (output kind, input source kind, unit).
+_TRANSFERS = {
+    "current_gain": ("current", "I", "A/A"),
+    "transimpedance": ("voltage", "I", "V/A"),
+    "voltage_gain": ("voltage", "V", "V/V"),
+    "transconductance": ("current", "V", "A/V"),
+}
+
+
+def _transfer(circuit: Circuit, output: str, input: str, options: SmallSignalOptions | None,
+              backend: str | None, quantity: str) -> Formula:
+    """Build and solve a transfer: drive the input source, observe the output current or voltage."""
     options = options or SmallSignalOptions()
-    out = _source(circuit, output, ("V",), "output")
-    src = _source(circuit, input, ("V",), "input")
-    problem = LinearProblem(expand(circuit, options), rhs=((f"i:{src.name}", 1),), observe=((f"i:{out.name}", -1),))
-    return _formula(problem, quantity="transconductance", label=f"i({out.name})/v({src.name})", unit="A/V",
-                    circuit=circuit, options=options, driven=src.name, backend=backend)
+    out_kind, in_kind, unit = _TRANSFERS[quantity]
+    src = _source(circuit, input, (in_kind,), "input")
+    rhs = _drive_current(src) if in_kind == "I" else ((f"i:{src.name}", 1),)
+    if out_kind == "current":
+        out = _source(circuit, output, ("V",), "output")
+        observe, shown = ((f"i:{out.name}", -1),), f"i({out.name})"
+    else:
+        observe, shown = _voltage(*_output_nodes(circuit, output)), f"v({output})"
+    problem = LinearProblem(expand(circuit, options), rhs=rhs, observe=observe)
+    label = f"{shown}/{'i' if in_kind == 'I' else 'v'}({src.name})"
+    return _formula(problem, quantity=quantity, label=label, unit=unit, circuit=circuit, options=options,
+                    driven=src.name, backend=backend)
 
 
 def _check_removable(circuit: Circuit, name: str) -> None:
