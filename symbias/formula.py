@@ -192,7 +192,8 @@ class Formula:
         if total > TERM_BUDGET:
             raise AnalysisError(
                 f"the exact {self.label} has {total} terms, more than the display budget of {TERM_BUDGET}; "
-                "evaluate it numerically or approximate it"
+                "evaluate it numerically or approximate it",
+                path=self.problem.network.path if self.problem is not None else None,
             )
 
     @cached_property
