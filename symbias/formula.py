@@ -287,7 +287,10 @@ class Formula:
                 raise AnalysisError(f"{self.label} has no network to solve numerically")
             return np.asarray(solve_problem(self.problem, self._network_values(values)))
         generators = self.generator_values(values)
-        return _evaluate_ratio(self._compiled, generators, self._used_generators)
+        result = _evaluate_ratio(self._compiled, generators, self._used_generators)
+        # a constant result still takes the shape of the inputs
+        shape = np.broadcast_shapes(*(np.shape(v) for v in normalise_values(values).values()))
+        return np.broadcast_to(result, shape).copy() if np.shape(result) != shape else result
 
     def _network_values(self, values: Mapping[Any, Any]) -> dict[str, Any]:
         """User values plus 1.0 for network symbols that cancelled out of the result.

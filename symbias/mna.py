@@ -139,11 +139,9 @@ def _monomials(expr: sympy.Expr) -> list[tuple[Fraction, list[tuple[sympy.Expr, 
         coeff, rest = term.as_coeff_Mul()
         if not coeff.is_Rational:
             coeff = sympy.Rational(Fraction(float(coeff)).limit_denominator(10**15))
+        # irrational constants such as sqrt(2) stay factors: they become generators of
+        # their own, so the result remains exact
         factors = [] if rest == 1 else [_factor_powers(f) for f in sympy.Mul.make_args(rest)]
-        numeric = [f for f in factors if f[0].is_number]
-        for base, exponent in numeric:  # e.g. sqrt(2): fold into the coefficient
-            coeff = coeff * sympy.Rational(Fraction(float(base**exponent)).limit_denominator(10**15))
-        factors = [f for f in factors if not f[0].is_number]
         out.append((Fraction(int(coeff.p), int(coeff.q)), factors))
     return out
 

@@ -251,21 +251,24 @@ def run(args: argparse.Namespace) -> int:
     if form == "latex":
         from ..render.latex import approximation_latex, formula_latex
 
+        lines = []  # rendered in full first: a result too big to print leaves no partial output
         for r in results:
-            print(formula_latex(r.formula))
+            lines.append(formula_latex(r.formula))
             if r.approximation is not None:
-                print(approximation_latex(r.approximation))
+                lines.append(approximation_latex(r.approximation))
             if r.error is not None:
-                print(approximation_latex(r.error.leading))
+                lines.append(approximation_latex(r.error.leading))
+        print("\n".join(lines))
         return 0
     if form == "markdown":
         from ..render.markdown import formula_markdown
 
-        print(f"## {circuit.title}\n")
+        sections = [f"## {circuit.title}\n"]
         for r in results:
-            print(formula_markdown(r.formula, r.approximation, r.sensitivities))
+            sections.append(formula_markdown(r.formula, r.approximation, r.sensitivities))
             if r.error is not None:
-                print(formula_markdown(r.error.exact, r.error.leading, title=r.error.exact.label))
+                sections.append(formula_markdown(r.error.exact, r.error.leading, title=r.error.exact.label))
+        print("\n".join(sections))
         return 0
     if form == "python":
         from ..render.python import python_source
