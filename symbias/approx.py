@@ -72,6 +72,7 @@ import itertools
 import math
 import re
 from dataclasses import dataclass, field
+from functools import cached_property
 from types import MappingProxyType
 from typing import Any, Iterable, Mapping, Sequence
 
@@ -124,6 +125,11 @@ _GREEDY_POOL = 30  # terms per side the greedy continuation may add
 _TIDY_TERMS = 40  # kept terms up to which the form is cancelled and factored for display
 _PAIR_BUDGET = 60_000  # candidate (numerator, denominator) sets screened per size before going greedy
 _SCREEN_POINTS = 1200  # points used to screen candidates before full verification
+_SAMPLE_ROWS = 1 << 17  # random points drawn in one numpy pass while sampling
+_STORE_ENTRIES = 8_000_000  # term values (points x terms) kept in memory; beyond, recomputed on demand
+_CHUNK_ENTRIES = 2_000_000  # term values computed in one numpy pass
+_SMALL_PRODUCT = 8_000_000  # multiply-adds up to which a matrix product is cut into single-thread pieces
+_SINGLE_THREAD_PRODUCT = 262_144  # multiply-adds below which OpenBLAS keeps a product on one thread
 
 
 class AssumptionError(SymbiasError, ValueError):
@@ -428,10 +434,26 @@ class MagnitudeModel:
         if matrix.shape[0] != matrix.shape[1] or np.linalg.matrix_rank(matrix) < len(self.names):
             raise AssumptionError("the factors of a magnitude model must determine every symbol")
         object.__setattr__(self, "_inverse", np.linalg.inv(matrix))
+        object.__setattr__(self, "_inverse_t", np.ascontiguousarray(self._inverse.T))
         low = np.log([a.low for a in self.factors])
         high = np.log([a.high for a in self.factors])
         object.__setattr__(self, "_low", low)
         object.__setattr__(self, "_width", high - low)
+        # every check at once: log values of the checked monomials = logs @ _check_rows
+        rows = np.array([a.row(self.names) for a in self.checks]).reshape(len(self.checks), len(self.names))
+        object.__setattr__(self, "_check_rows", np.ascontiguousarray(rows.T))
+        object.__setattr__(self, "_check_low", np.array([math.log(a.low) - 1e-9 for a in self.checks]))
+        object.__setattr__(self, "_check_high", np.array([math.log(a.high) + 1e-9 for a in self.checks]))
+        # the same straight from unit-box points, check by check: the factors a check involves, their
+        # weights, and its bounds less the part that does not depend on the point
+        unit_checks = self._inverse_t @ self._check_rows
+        terms = []
+        for c in range(len(self.checks)):
+            used = np.flatnonzero(np.abs(unit_checks[:, c]) > 1e-13)
+            offset = float(self._low @ unit_checks[:, c])
+            terms.append((used, unit_checks[used, c] * self._width[used], self._check_low[c] - offset,
+                          self._check_high[c] - offset))
+        object.__setattr__(self, "_check_terms", tuple(terms))
 
     @property
     def assumptions(self) -> tuple[Assumption, ...]:
@@ -446,15 +468,36 @@ class MagnitudeModel:
     def logs(self, unit: np.ndarray) -> np.ndarray:
         """Log symbol values (points x names) of points in the unit box (points x factors)."""
         f = self._low + np.asarray(unit, dtype=float) * self._width
-        return f @ self._inverse.T
+        return _dot(f, self._inverse_t) if f.ndim == 2 else f @ self._inverse_t
 
     def admissible(self, logs: np.ndarray) -> np.ndarray:
         """Mask of points that pass every check (a relative slack of 1e-9)."""
-        ok = np.ones(len(logs), dtype=bool)
-        for check in self.checks:
-            value = logs @ check.row(self.names)
-            ok &= (value >= math.log(check.low) - 1e-9) & (value <= math.log(check.high) + 1e-9)
-        return ok
+        logs = np.asarray(logs, dtype=float).reshape(-1, len(self.names))
+        if not self.checks:
+            return np.ones(len(logs), dtype=bool)
+        values = _dot(logs, self._check_rows)
+        return np.all((values >= self._check_low) & (values <= self._check_high), axis=1)
+
+    def _passes(self, unit: np.ndarray, order: Sequence[int] | None = None) -> np.ndarray:
+        """:meth:`admissible` of unit-box points, check by check on the points still in.
+
+        A check involves a few factors (those of its devices), so each one is
+        a short weighted sum over the points that passed the checks before it
+        (taken in ``order``, the most selective first); when few points pass
+        (many devices), most are dropped after a check or two.
+        """
+        rows = None
+        for c in range(len(self.checks)) if order is None else order:
+            used, weights, low, high = self._check_terms[c]
+            part = unit if rows is None else unit[rows]
+            value = np.zeros(len(part))
+            for j, w in zip(used, weights):  # a short sum, not a BLAS call (see _dot)
+                value += part[:, j] * w
+            keep = np.flatnonzero((value >= low) & (value <= high))
+            rows = keep if rows is None else rows[keep]
+        passed = np.zeros(len(unit), dtype=bool)
+        passed[slice(None) if rows is None else rows] = True
+        return passed
 
     def corners(self, seed: int = 0) -> np.ndarray:
         """Unit-box corners: all of them, or :data:`MAX_CORNERS` seeded ones."""
@@ -480,14 +523,33 @@ class MagnitudeModel:
         """
         rng = np.random.default_rng(seed)
         limit = 200 * n if max_draws is None else max_draws
+        batch, k = max(n, 256), len(self.factors)
         kept, drawn, count = [], 0, 0
+        order, buffer = None, np.empty((0, k))
         while count < n and drawn < limit:
-            batch = rng.random((max(n, 256), len(self.factors)))
-            drawn += len(batch)
-            good = batch[self.admissible(self.logs(batch))]
-            kept.append(good)
-            count += len(good)
-        unit = np.vstack(kept)[:n] if kept else np.empty((0, len(self.factors)))
+            # Several batches are drawn in one block when few points pass (one pass of numpy over
+            # many rows instead of hundreds of small ones).  The random stream is the same as batch
+            # by batch, and whole batches are used up to the one in which the n-th point passes, so
+            # the points and the count drawn do not depend on the block size.
+            allowed = -(-(limit - drawn) // batch)
+            wanted = 1 if not drawn else math.ceil(1.25 * (n - count) * drawn / max(count, 1) / batch)
+            blocks = int(min(allowed, max(1, min(wanted, _SAMPLE_ROWS // batch))))
+            if len(buffer) < blocks * batch:
+                buffer = np.empty((blocks * batch, k))  # reused: fresh pages cost more than the numbers
+            block = rng.random(out=buffer[: blocks * batch])
+            if order is None:
+                # the most selective checks first (the mask does not depend on the order)
+                rates = [self._passes(block, [c]).mean() for c in range(len(self.checks))]
+                order = list(np.argsort(rates, kind="stable"))
+            passed = self._passes(block, order).reshape(blocks, batch)
+            for i in range(blocks):
+                if count >= n or drawn >= limit:
+                    break
+                good = block[i * batch : (i + 1) * batch][passed[i]]
+                drawn += batch
+                kept.append(good)
+                count += len(good)
+        unit = np.vstack(kept)[:n] if kept else np.empty((0, k))
         return unit, drawn
 
     def values(self, unit: np.ndarray) -> dict[str, np.ndarray]:
@@ -655,12 +717,14 @@ class _Terms:
             exps = np.array([e for e, _ in terms], dtype=float).reshape(len(terms), ngens)
             coeffs = np.array([float(c) for _, c in terms])
             self.sides.append((terms, exps, np.log(np.abs(coeffs)), np.sign(coeffs)))
+        self.exps_t = [np.ascontiguousarray(exps.T) for _, exps, _, _ in self.sides]
         # exponents of each term in the user symbols (generators of sub-expressions count as used)
         self.user_exps = [exps @ self.symbol_map.T for _, exps, _, _ in self.sides]
+        self.stored: list[np.ndarray | None] = [None, None]
 
     def generator_logs(self, logs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Log magnitude and sign of every generator at the points."""
-        glog = logs @ self.symbol_map
+        glog = _dot(logs, self.symbol_map)
         gsign = np.ones_like(glog)
         if self.special:
             from .numeric import evaluate_expression
@@ -675,24 +739,32 @@ class _Terms:
 
     def _values(self, side: int, glog: np.ndarray, gsign: np.ndarray, columns, top=None):
         """Signed term values over ``exp(top)`` (top: the largest term log per point by default)."""
-        _, exps, logc, signc = self.sides[side]
+        _, _, logc, signc = self.sides[side]
+        exps_t = self.exps_t[side]
         if columns is not None:
-            exps, logc, signc = exps[columns], logc[columns], signc[columns]
-        t = glog @ exps.T + logc
+            exps_t, logc, signc = exps_t[:, columns], logc[columns], signc[columns]
+        t = _dot(glog, exps_t) + logc
         if top is None:
             top = t.max(axis=1, keepdims=True)
         sign = signc
         if self.special:
-            sign = signc * np.where(((gsign < 0).astype(float) @ exps.T) % 2 > 0.5, -1.0, 1.0)
+            sign = signc * np.where(_dot((gsign < 0).astype(float), exps_t) % 2 > 0.5, -1.0, 1.0)
         return sign * np.exp(t - top), top
 
-    def prepare(self, logs: np.ndarray, chunk: int = 400) -> None:
-        """Store per point the largest term log, the scaled sums and each term's importance."""
+    def prepare(self, logs: np.ndarray) -> None:
+        """Store per point the largest term log, the scaled sums and each term's importance.
+
+        The scaled value of every term at every point is kept too (points x
+        terms) when it fits :data:`_STORE_ENTRIES`, so that the search reads
+        columns instead of recomputing them.
+        """
         self.glog, self.gsign = self.generator_logs(logs)
         self.tops, self.sums, self.importance = [], [], []
+        store = len(logs) * (len(self.sides[0][0]) + len(self.sides[1][0])) <= _STORE_ENTRIES
         for side in (0, 1):
-            tops, sums = [], []
+            tops, sums, parts = [], [], []
             importance = np.zeros(len(self.sides[side][0]))
+            chunk = max(1, _CHUNK_ENTRIES // max(1, len(self.sides[side][0])))
             for start in range(0, len(logs), chunk):
                 part = slice(start, start + chunk)
                 values, top = self._values(side, self.glog[part], self.gsign[part], None)
@@ -702,12 +774,18 @@ class _Terms:
                 importance = np.maximum(importance, np.nan_to_num(share, nan=np.inf).max(axis=0))
                 tops.append(top)
                 sums.append(total)
+                if store:
+                    parts.append(values)
             self.tops.append(np.vstack(tops))
             self.sums.append(np.concatenate(sums))
             self.importance.append(importance)
+            self.stored[side] = np.vstack(parts) if store else None
 
     def columns(self, side: int, columns: Sequence[int]) -> np.ndarray:
         """Scaled values of some terms at the prepared points (same scale as :attr:`sums`)."""
+        stored = self.stored[side]
+        if stored is not None:
+            return stored[:, list(columns)]
         return self._values(side, self.glog, self.gsign, list(columns), self.tops[side])[0]
 
     def ratio_at(self, logs: np.ndarray, kept: tuple[Sequence[int], Sequence[int]]) -> np.ndarray:
@@ -732,6 +810,32 @@ class _Terms:
         return int(used.sum()) + special
 
 
+def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a @ b``, cut into row blocks that BLAS runs on the calling thread when it is mid-sized.
+
+    Why: a multi-threaded BLAS (OpenBLAS: above about 2.6e5 multiply-adds)
+    wakes its threads for every product; on a busy machine a wake-up costs
+    milliseconds, far more than the arithmetic of the many mid-sized products
+    the search makes.  Small and large products go to BLAS as they are.  The
+    result is the same product whatever BLAS decides.
+
+    Examples
+    --------
+    >>> _dot(np.eye(2), np.array([[1.0, 2.0], [3.0, 4.0]]))
+    array([[1., 2.],
+           [3., 4.]])
+    """
+    m, k = a.shape
+    n = b.shape[1]
+    rows = _SINGLE_THREAD_PRODUCT // max(1, k * n)
+    if m * k * n <= _SINGLE_THREAD_PRODUCT or m * k * n > _SMALL_PRODUCT or rows < 1:
+        return a @ b
+    out = np.empty((m, n), dtype=np.result_type(a, b))
+    for start in range(0, m, rows):
+        np.matmul(a[start : start + rows], b, out=out[start : start + rows])
+    return out
+
+
 def _errors(ratio: np.ndarray) -> np.ndarray:
     with np.errstate(invalid="ignore"):
         err = np.abs(ratio - 1.0)
@@ -751,8 +855,6 @@ class Approximation:
         The exact result.
     formula : Formula
         The kept terms ``N'/D'`` over the same ring (for evaluation).
-    expr : sympy.Expr
-        The approximation, common factors cancelled (for display and export).
     error : float
         Worst relative error ``|approx/exact - 1|`` found.
     worst_point : mapping of str to float
@@ -767,11 +869,17 @@ class Approximation:
     seed : int
     kept : tuple of (int, int)
         ``((kept numerator terms, all), (kept denominator terms, all))``.
+
+    Attributes
+    ----------
+    expr : sympy.Expr
+        The approximation, common factors cancelled (for display and export);
+        built on first use, since a caller that only needs the error or the
+        kept counts should not pay for a long sympy expression.
     """
 
     exact: Formula
     formula: Formula
-    expr: sympy.Expr
     error: float
     worst_point: Mapping[str, float]
     assumptions: tuple[Assumption, ...]
@@ -786,6 +894,16 @@ class Approximation:
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "worst_point", MappingProxyType(dict(self.worst_point)))
+
+    @cached_property
+    def expr(self) -> sympy.Expr:
+        """The approximation, common factors cancelled (for display and export)."""
+        if self.formula is self.exact:
+            return self.exact.expr
+        # factoring is for display of a short form; it costs minutes on a long one
+        if sum(k for k, _ in self.kept) <= _TIDY_TERMS:
+            return _tidy(self.formula.expr)
+        return self.formula.expr
 
     @property
     def text(self) -> str:
@@ -914,8 +1032,7 @@ def approximate(
 def _whole(formula: Formula, tolerance: float, seed: int, assumptions) -> Approximation:
     """A result that is already a single term (or a number) is its own approximation."""
     nN, nD = formula.nterms
-    return Approximation(formula, formula, formula.expr, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed,
-                         ((nN, nN), (nD, nD)))
+    return Approximation(formula, formula, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed, ((nN, nN), (nD, nD)))
 
 
 def _result(formula, terms: _Terms, model, kept, error, worst_unit, tolerance, corners, samples, refined,
@@ -927,12 +1044,9 @@ def _result(formula, terms: _Terms, model, kept, error, worst_unit, tolerance, c
         polys.append(ring.from_terms([all_terms[i] for i in sorted(kept[side])]))
     approx = formula.with_polynomials(polys[0], polys[1], label=f"{formula.label} (approx)",
                                       quantity=formula.quantity, problem=None)
-    kept_terms = len(kept[0]) + len(kept[1])
-    # factoring is for display of a short form; it costs minutes on a long one
-    expr = _tidy(approx.expr) if kept_terms <= _TIDY_TERMS else approx.expr
     point = {n: float(v[0]) for n, v in model.values(worst_unit[None, :]).items()}
     nN, nD = formula.nterms
-    return Approximation(formula, approx, expr, float(error), point, model.assumptions, tolerance, corners,
+    return Approximation(formula, approx, float(error), point, model.assumptions, tolerance, corners,
                          samples, refined, admitted, seed, ((len(kept[0]), nN), (len(kept[1]), nD)), model)
 
 
@@ -961,6 +1075,7 @@ class _Search:
     def run(self):
         pools = [list(self.order[s][:_POOL]) for s in (0, 1)]
         cols = [self.terms.columns(s, pools[s]) / self.terms.sums[s][:, None] for s in (0, 1)]
+        screened = [c[self.screen] for c in cols]
         best_failed = None
         sizes = range(2, min(_LARGEST_SEARCH, len(pools[0]) + len(pools[1])) + 1)
         for size in sizes:
@@ -973,9 +1088,8 @@ class _Search:
                 if a > len(pools[0]) or b > len(pools[1]):
                     continue
                 combos = [list(itertools.combinations(range(len(pools[s])), k)) for s, k in ((0, a), (1, b))]
-                rn = np.stack([cols[0][self.screen][:, list(c)].sum(axis=1) for c in combos[0]], axis=1)
-                rd = np.stack([cols[1][self.screen][:, list(c)].sum(axis=1) for c in combos[1]], axis=1)
-                worst = _pair_errors(rn, rd)
+                rn, rd = (_subset_sums(screened[s], combos[s]) for s in (0, 1))
+                worst = _pair_errors(rn, rd, self.tolerance)
                 for i, j in zip(*np.nonzero(worst <= self.tolerance)):
                     kept = ([pools[0][x] for x in combos[0][i]], [pools[1][x] for x in combos[1][j]])
                     found.append((self.terms.symbol_count(kept), float(worst[i, j]), kept))
@@ -998,13 +1112,17 @@ class _Search:
             err = _errors(cols[0] / cols[1])
         if err.max() > self.tolerance:
             return None
-        worst, where = self.refine(kept, err)
+        worst, where = self.refine(kept, err, limit=self.tolerance)
         if worst > self.tolerance:
             return None
         return worst, where
 
-    def refine(self, kept, err: np.ndarray, starts: int = 4, iterations: int = 80):
-        """Compass search in the unit box from the worst points; returns (worst error, unit point)."""
+    def refine(self, kept, err: np.ndarray, starts: int = 4, iterations: int = 80, limit: float = np.inf):
+        """Compass search in the unit box from the worst points; returns (worst error, unit point).
+
+        The search stops early once an error above ``limit`` is found (the
+        candidate is rejected whatever the rest of the search would find).
+        """
         order = np.argsort(-err)[:starts]
         points = self.unit[order].copy()
         values = err[order].copy()
@@ -1022,28 +1140,28 @@ class _Search:
                     d = np.zeros(k)
                     d[f], d[g] = sf, sg
                     directions.append(d)
+        directions = np.array(directions).reshape(-1, k)
         step = np.full(len(points), 0.25)
         for _ in range(iterations):
-            active = step > 1e-4
-            if not active.any() or not free:
+            active = np.flatnonzero(step > 1e-4)
+            if not len(active) or not free:
                 break
-            moves = []
-            for p in np.flatnonzero(active):
-                for d in directions:
-                    moves.append((p, np.clip(points[p] + step[p] * d, 0.0, 1.0)))
-            trial = np.array([q for _, q in moves]).reshape(-1, k)
+            # every move of every active start, start by start (the order decides ties)
+            trial = np.clip(points[active, None, :] + step[active, None, None] * directions[None], 0.0, 1.0)
+            trial = trial.reshape(-1, k)
             logs = self.model.logs(trial)
             e = _errors(self.terms.ratio_at(logs, kept))
             e[~self.model.admissible(logs)] = -np.inf
             self.refined += len(trial)
-            owners = np.array([p for p, _ in moves])
-            for p in np.flatnonzero(active):
-                mine = np.flatnonzero(owners == p)
-                best = mine[np.argmax(e[mine])]
-                if e[best] > values[p] * (1 + 1e-12):
-                    values[p], points[p] = e[best], trial[best]
+            e = e.reshape(len(active), len(directions))
+            for row, p in enumerate(active):
+                best = int(np.argmax(e[row]))
+                if e[row, best] > values[p] * (1 + 1e-12):
+                    values[p], points[p] = e[row, best], trial[row * len(directions) + best]
                 else:
                     step[p] /= 2
+            if values.max() > limit:
+                break
         best = int(np.argmax(values))
         if values[best] >= err.max():
             return float(values[best]), points[best]
@@ -1063,14 +1181,22 @@ class _Search:
             return cols[side, index]
 
         current = [sum(column(s, i) for i in kept[s]) for s in (0, 1)]
+        pool = [self.terms.columns(s, candidates[s]) / self.terms.sums[s][:, None] for s in (0, 1)]
+        where = [{index: c for c, index in enumerate(candidates[s])} for s in (0, 1)]
         while candidates[0] or candidates[1]:
+            # every candidate of a side at once: a column per candidate, the worst error per column
             options = []
             for side in (0, 1):
-                for index in candidates[side]:
-                    trial = list(current)
-                    trial[side] = trial[side] + column(side, index)
-                    with np.errstate(divide="ignore", invalid="ignore"):
-                        options.append((float(_errors(trial[0] / trial[1]).max()), side, index))
+                if not candidates[side]:
+                    continue
+                added = pool[side][:, [where[side][i] for i in candidates[side]]]
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    if side == 0:
+                        ratio = (current[0][:, None] + added) / current[1][:, None]
+                    else:
+                        ratio = current[0][:, None] / (current[1][:, None] + added)
+                worst = _errors(ratio).max(axis=0)
+                options += [(float(w), side, index) for w, index in zip(worst, candidates[side])]
             error, side, index = min(options)
             kept[side].append(index)
             candidates[side].remove(index)
@@ -1083,8 +1209,71 @@ class _Search:
         return everything, 0.0, self.unit[0], self.refined
 
 
-def _pair_errors(rn: np.ndarray, rd: np.ndarray, budget: int = 4_000_000) -> np.ndarray:
-    """max over points of |rn[:, i]/rd[:, j] - 1| for every pair (i, j)."""
+def _subset_sums(columns: np.ndarray, subsets: Sequence[Sequence[int]]) -> np.ndarray:
+    """Per point, the sum of the columns of each subset (points x subsets), all subsets of one size.
+
+    Examples
+    --------
+    >>> _subset_sums(np.array([[1.0, 2.0, 4.0]]), [(0, 1), (0, 2), (1, 2)]).tolist()
+    [[3.0, 5.0, 6.0]]
+    """
+    index = np.asarray(subsets, dtype=int).reshape(len(subsets), -1)
+    total = columns[:, index[:, 0]]
+    for j in range(1, index.shape[1]):
+        total = total + columns[:, index[:, j]]  # term by term, as a sum over each subset would add them
+    return total
+
+
+def _pair_errors(rn: np.ndarray, rd: np.ndarray, tolerance: float = np.inf, budget: int = 4_000_000) -> np.ndarray:
+    """max over points of |rn[:, i]/rd[:, j] - 1| for every pair (i, j), where it matters.
+
+    Exact for every pair within ``tolerance`` and for the pairs that decide
+    the smallest value (and where it occurs); any other entry holds a lower
+    bound that is above both.  The bounds come from a few probe points (where
+    some column is largest or smallest), so most pairs are never evaluated at
+    every point; the bounds are then raised to exact values in order until
+    none is below the best exact value.
+
+    Examples
+    --------
+    >>> rn = np.array([[1.0, 2.0], [1.0, 1.5]])
+    >>> rd = np.array([[1.0], [1.2]])
+    >>> _pair_errors(rn, rd).round(3).tolist()
+    [[0.167], [1.0]]
+    """
+    points, ni = rn.shape
+    nj = rd.shape[1]
+    chosen = np.zeros(points, dtype=bool)
+    for extreme in (rn.argmax(axis=0), rn.argmin(axis=0), rd.argmax(axis=0), rd.argmin(axis=0)):
+        chosen[extreme] = True
+    probe = np.flatnonzero(chosen)
+    if points <= 4 * len(probe) or ni * nj <= 64:
+        return _all_pair_errors(rn, rd, budget)
+    bound = _all_pair_errors(rn[probe], rd[probe], budget).reshape(-1)  # flat index i*nj + j
+    exact = np.zeros(ni * nj, dtype=bool)
+
+    def settle(flat: np.ndarray) -> None:
+        chunk = max(1, budget // points)
+        for start in range(0, len(flat), chunk):
+            part = flat[start : start + chunk]
+            i, j = np.divmod(part, nj)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                err = np.abs(rn[:, i] / rd[:, j] - 1.0)
+            bound[part] = np.where(np.isfinite(err), err, np.inf).max(axis=0)
+            exact[part] = True
+
+    settle(np.flatnonzero(bound <= tolerance))
+    best = bound[exact].min() if exact.any() else np.inf
+    while True:
+        open_ = np.flatnonzero(~exact & (bound <= best))
+        if not len(open_):
+            return bound.reshape(ni, nj)
+        settle(open_[np.argsort(bound[open_], kind="stable")[:256]])
+        best = bound[exact].min()
+
+
+def _all_pair_errors(rn: np.ndarray, rd: np.ndarray, budget: int) -> np.ndarray:
+    """max over points of |rn[:, i]/rd[:, j] - 1| for every pair (i, j), all evaluated."""
     points, ni = rn.shape
     nj = rd.shape[1]
     out = np.empty((ni, nj))

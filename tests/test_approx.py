@@ -312,3 +312,75 @@ def test_frequency_dependent_results_are_refused():
     exact = output_resistance(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", options(capacitances=True))
     with pytest.raises(AnalysisError, match="frequency"):
         approximate(exact)
+
+
+# -- the fast paths of the search (each against a plain computation written here) -----------------
+def _reference_sample(model, n, seed, max_draws=None):
+    """The documented rule, batch by batch: seeded uniform unit points (batches of max(n, 256)) until n pass
+    every check or max_draws (default 200*n) were drawn; each check tested on its monomial's value."""
+    rng = np.random.default_rng(seed)
+    limit = 200 * n if max_draws is None else max_draws
+    kept, drawn, count = [], 0, 0
+    while count < n and drawn < limit:
+        batch = rng.random((max(n, 256), len(model.factors)))
+        drawn += len(batch)
+        values = model.values(batch)
+        ok = np.ones(len(batch), dtype=bool)
+        for check in model.checks:
+            monomial = np.prod([values[name] ** power for name, power in check.powers], axis=0)
+            ok &= (monomial >= check.low * (1 - 1e-8)) & (monomial <= check.high * (1 + 1e-8))
+        kept.append(batch[ok])
+        count += int(ok.sum())
+    return np.vstack(kept)[:n], drawn
+
+
+@pytest.mark.parametrize("max_draws", [None, 5000])
+def test_sampling_in_blocks_draws_the_documented_points(max_draws):
+    # six unmatched bipolar devices: 16 checks, well under 1 % of the box passes, so many batches are drawn
+    names = [f"{p}_Q{k}" for k in range(1, 7) for p in ("gm", "ro", "rpi")]
+    model = magnitude_model(names)
+    assert len(model.checks) == 16
+    unit, drawn = model.admitted_sample(300, seed=FRESH_SEED, max_draws=max_draws)
+    expected, expected_drawn = _reference_sample(model, 300, FRESH_SEED, max_draws)
+    assert drawn == expected_drawn
+    assert drawn > 20 * 300 if max_draws is None else drawn == 5100  # many batches, or up to the limit
+    np.testing.assert_array_equal(unit, expected)
+    assert np.all(model.admissible(model.logs(unit)))
+
+
+def test_pair_screen_is_exact_where_it_decides():
+    from symbias.approx import _pair_errors
+
+    rng = np.random.default_rng(FRESH_SEED)
+    rn = np.exp(rng.normal(0, 0.1, (500, 40)))
+    rd = np.exp(rng.normal(0, 0.1, (500, 30)))
+    rn[:, 3] = rd[:, 7] * (1 + rng.uniform(-0.02, 0.02, 500))  # a pair within 2 %
+    full = np.abs(rn[:, :, None] / rd[:, None, :] - 1).max(axis=0)  # every pair at every point
+    for tolerance in (0.05, 0.3, 1e-6):
+        screened = _pair_errors(rn, rd, tolerance)
+        inside = full <= tolerance
+        np.testing.assert_array_equal(screened[inside], full[inside])
+        assert np.all(screened[~inside] > tolerance) and np.all(screened <= full)
+        assert np.argmin(screened) == np.argmin(full) and screened.min() == full.min()
+
+
+def test_products_and_subset_sums_match_plain_numpy():
+    from symbias.approx import _dot, _subset_sums
+
+    rng = np.random.default_rng(FRESH_SEED)
+    a, b = rng.normal(size=(300, 18)), rng.integers(0, 3, size=(18, 1000)).astype(float)
+    np.testing.assert_allclose(_dot(a, b), a @ b, rtol=1e-12, atol=1e-12)  # cut into single-thread row blocks
+    columns = rng.normal(size=(50, 10))
+    subsets = [(0, 4, 9), (1, 2, 3), (5, 6, 8)]
+    np.testing.assert_array_equal(_subset_sums(columns, subsets),
+                                  np.stack([columns[:, list(s)].sum(axis=1) for s in subsets], axis=1))
+
+
+def test_without_a_short_form_the_exact_form_is_kept_and_printed_only_on_demand():
+    # 8-node cascoded mirror with a beta helper, every device's symbols distinct (1595/558 terms, 18 symbols):
+    # no short form is within 10 % over the default ranges (docs/approximation.md, Limits)
+    exact = output_resistance(read_netlist(DECKS / "bjt_cascode_mirror_helper.cir"), "Vout", SmallSignalOptions())
+    a = approximate(exact)
+    assert a.kept == ((1595, 1595), (558, 558)) and a.error == 0.0
+    assert "expr" not in vars(a)  # the long sympy form is built on first use only
+    assert a.expr == exact.expr

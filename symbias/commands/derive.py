@@ -337,5 +337,10 @@ def _value_text(formula, values: dict[str, float]) -> str:
     if missing:
         return f"needs {', '.join(missing)} (not set by the operating point; use --set)"
     value = _value_at(formula, values)
-    shown = "infinite" if value is None else engineering(value)
+    if value is None:
+        shown = "infinite"
+    elif formula.unit in ("A/A", "V/V"):
+        shown = f"{value:.6g}"  # a ratio reads better without an SI prefix
+    else:
+        shown = engineering(value)
     return f"{shown} {formula.unit} at {values['temperature_degC']:g} degC"
