@@ -90,9 +90,6 @@ def json_safe(data: Any) -> Any:
 
 def console():
     """A rich console on stdout, 120 columns wide when stdout is not a terminal."""
-    import sys
+    from ..render.text import terminal_console
 
-    from rich.console import Console
-
-    out = Console(file=sys.stdout)
-    return out if out.is_terminal else Console(file=sys.stdout, width=120)
+    return terminal_console()

@@ -275,11 +275,11 @@ def run(args: argparse.Namespace) -> int:
 
         print("\n\n".join(python_source(r.formula, r.approximation) for r in results), end="")
         return 0
-    from rich.console import Console
+    from ..render.text import terminal_console
 
     from ..render.text import approximation_rows, formula_panel, sensitivity_table
 
-    console = Console(file=sys.stdout)
+    console = terminal_console()
     console.print(f"[bold]{circuit.title}[/bold]  ({circuit.path or args.netlist})")
     for r in results:
         rows = approximation_rows(r.approximation) if r.approximation is not None else []

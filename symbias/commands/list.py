@@ -102,7 +102,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(rows, indent=2))
         return 0
-    from rich.console import Console
+    from ..render.text import terminal_console
     from rich.table import Table
 
     table = Table(title=f"symbias topology library ({len(rows)} topologies)", show_lines=False)
@@ -112,7 +112,7 @@ def run(args: argparse.Namespace) -> int:
         headroom = row["headroom"].get("output") or (
             f"supply >= {row['headroom']['supply']}" if "supply" in row["headroom"] else "")
         table.add_row(row["id"], row["title"], row["family"], row["devices"], headroom, row["rout"])
-    console = Console(file=sys.stdout)
+    console = terminal_console()
     console.print(table)
     console.print(f"[dim]{_DESIGN_AID}[/dim]")
     return 0

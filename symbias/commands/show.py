@@ -138,9 +138,9 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(record, indent=2, default=str))
         return 0
-    from rich.console import Console
+    from ..render.text import terminal_console
 
-    console = Console(file=sys.stdout)
+    console = terminal_console()
     for renderable in _renderables(topology, record, [f for _, f in derived]):
         console.print(renderable)
     console.print(f"[dim]{_DESIGN_AID}[/dim]")

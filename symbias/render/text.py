@@ -18,7 +18,8 @@ import sympy
 from ..formula import Formula
 
 __all__ = [
-    "engineering","formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
+    "engineering",
+    "terminal_console","formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
            "DISPLAY_TERMS"]
 
 #: Results with more terms than this are summarised, not printed in full.
@@ -136,6 +137,20 @@ def sensitivity_table(rows: Any, title: str = "normalised sensitivities S = (x/F
             expr = "(long: see --json or --format markdown)"
         table.add_row(Text(row.symbol), Text(value), Text(expr))
     return table
+
+
+def terminal_console(stream=None) -> Any:
+    """A rich console on stdout, 120 columns wide when the output is not a terminal.
+
+    Piped output (a file, a pager, a test) would otherwise wrap tables at 80 columns.
+    """
+    import sys
+
+    from rich.console import Console
+
+    stream = stream or sys.stdout
+    out = Console(file=stream)
+    return out if out.is_terminal else Console(file=stream, width=120)
 
 
 def render_to_string(renderable: Any, width: int = 100) -> str:
