@@ -182,6 +182,13 @@ def _smooth_overdrive(v, s):
 
 
 def _forward_mode(vgs, vds, vbs, t: MosAtTemperature):
+    # a diverging Newton trial may reach absurd voltages; the solver rejects the
+    # non-finite result, so the overflow itself is not worth a warning
+    with np.errstate(over="ignore", invalid="ignore"):
+        return _forward_mode_values(vgs, vds, vbs, t)
+
+
+def _forward_mode_values(vgs, vds, vbs, t: MosAtTemperature):
     vth, dvth = _threshold(vbs, t)
     vov = vgs - vth
     f, df = _smooth_overdrive(vov, t.s)
