@@ -458,7 +458,8 @@ def solve(problem: LinearProblem, backend: str | None = None) -> Solution:
     solver = CofactorSolver(ring, len(labels), entries)
     det = solver.det()
     if det is None:
-        raise AnalysisError(_singular_reason(network, entries, labels), path=network.path)
+        reason, line = _singular_reason(network, entries, labels)
+        raise AnalysisError(reason, path=network.path, line=line)
     numerator = ring.zero
     for out_label, c in problem.observe:
         for in_label, b in problem.rhs:
@@ -468,17 +469,28 @@ def solve(problem: LinearProblem, backend: str | None = None) -> Solution:
     return Solution(ring, variables, numerator, det, len(solver.memo))
 
 
-def _singular_reason(network: LinearNetwork, entries, labels) -> str:
-    """Explain a zero determinant: a node or branch with no connection, else generic."""
+def _singular_reason(network: LinearNetwork, entries, labels) -> tuple[str, int | None]:
+    """Explain a zero determinant and point at the first element touching the culprit."""
     import networkx as nx
+
+    def line_of(nodes: set[str]) -> int | None:
+        for p in network.primitives:
+            if p.line and any(n in nodes for n in p.nodes):
+                return p.line
+        return None
 
     size = len(labels)
     used_rows = {r for r, _ in entries}
     used_cols = {c for _, c in entries}
     for i, label in enumerate(labels):
         if i not in used_rows or i not in used_cols:
-            what = f"node {label[2:]!r}" if label.startswith("v:") else f"source {label[2:]!r}"
-            return f"the network is singular: {what} has no small-signal connection (floating)"
+            name = label[2:]
+            if label.startswith("v:"):
+                return (f"the network is singular: node {name!r} has no small-signal connection (floating)",
+                        line_of({name}))
+            source = next((p for p in network.primitives if p.name == name), None)
+            return (f"the network is singular: source {name!r} has no small-signal connection (floating)",
+                    source.line if source else None)
     graph = nx.Graph()
     graph.add_nodes_from(range(size))
     graph.add_node(-1)  # ground
@@ -488,10 +500,10 @@ def _singular_reason(network: LinearNetwork, entries, labels) -> str:
             continue
         ends = [node_index.get(n, -1) for n in p.nodes[:2]]
         graph.add_edge(*ends)
-    floating = [labels[i][2:] for comp in nx.connected_components(graph) if -1 not in comp for i in comp
-                if i >= 0 and labels[i].startswith("v:")]
+    floating = {labels[i][2:] for comp in nx.connected_components(graph) if -1 not in comp for i in comp
+                if i >= 0 and labels[i].startswith("v:")}
     if floating:
-        return ("the network is singular: node(s) " + ", ".join(sorted(set(floating)))
-                + " float (no small-signal path to ground once sources are zeroed)")
+        return ("the network is singular: node(s) " + ", ".join(sorted(floating))
+                + " float (no small-signal path to ground once sources are zeroed)", line_of(floating))
     return ("the network is singular (det = 0): look for a loop of voltage sources, a node fed only by current "
-            "sources, or a device whose small-signal model leaves a node undetermined")
+            "sources, or a device whose small-signal model leaves a node undetermined", None)
