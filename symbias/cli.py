@@ -78,7 +78,8 @@ def main(argv: list[str] | None = None) -> int:
     except SymbiasError as err:
         if args.debug:
             raise
-        print(str(err), file=sys.stderr)
+        # an error found outside any file (an empty sweep range) is reported against the netlist
+        print(str(err if err.path else err.located(getattr(args, "netlist", None))), file=sys.stderr)
         return EXIT_ANALYSIS if isinstance(err, AnalysisError) else EXIT_USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("interrupted", file=sys.stderr)
