@@ -43,8 +43,9 @@ from .polys import Ring
 
 __all__ = ["Formula", "TERM_BUDGET", "POLYNOMIAL_ROUTE_TERMS"]
 
-#: Largest result (numerator plus denominator terms) turned into a sympy expression.
-TERM_BUDGET = 200_000
+#: Largest result (numerator plus denominator terms) turned into a sympy expression;
+#: sympy needs seconds per 10,000 terms, so larger results are written from their terms.
+TERM_BUDGET = 20_000
 #: Above this many terms ``evaluate(route="auto")`` uses the batched numeric solve.
 POLYNOMIAL_ROUTE_TERMS = 3_000
 #: Largest result for which common factors are cancelled (a gcd per result).
@@ -222,9 +223,25 @@ class Formula:
         num, den = self.user_terms()
         return f"({_terms_to_text(num)})/({_terms_to_text(den)})"
 
-    def latex(self) -> str:
-        """LaTeX of the exact result."""
-        return sympy.latex(self.expr)
+    def latex(self, symbol_names: Mapping[str, str] | None = None) -> str:
+        """LaTeX of the exact result.
+
+        Results within :data:`TERM_BUDGET` go through sympy's printer; larger
+        ones are written straight from their terms (same form, no sympy
+        expression is built).
+
+        Parameters
+        ----------
+        symbol_names : mapping of str to str, optional
+            LaTeX for symbol names, e.g. ``{"gm_Q1": "g_{m,Q1}"}``.
+        """
+        names = dict(symbol_names or {})
+        if sum(self.nterms) <= TERM_BUDGET:
+            mapping = {s: names[s.name] for s in self.expr.free_symbols
+                       if isinstance(s, sympy.Symbol) and s.name in names}
+            return sympy.latex(self.expr, symbol_names=mapping)
+        num, den = self.user_terms()
+        return rf"\frac{{{_terms_to_latex(num, names)}}}{{{_terms_to_latex(den, names)}}}"
 
     def _repr_latex_(self) -> str:
         return f"$\\displaystyle {self.latex()}$"
@@ -421,6 +438,33 @@ def _terms_to_text(terms) -> str:
             factors.append(text if e == 1 else f"{text}**{e}")
         out.append("*".join(factors))
     return " + ".join(out)
+
+
+def _terms_to_latex(terms, names: Mapping[str, str]) -> str:
+    if not terms:
+        return "0"
+    cache: dict[Any, str] = {}
+
+    def name(key: Any) -> str:
+        if key not in cache:
+            if isinstance(key, sympy.Symbol):
+                cache[key] = names.get(key.name, sympy.latex(key))
+            else:
+                cache[key] = rf"\left({sympy.latex(key)}\right)"
+        return cache[key]
+
+    parts = []
+    for powers, coeff in terms:
+        factors = [name(key) if e == 1 else f"{name(key)}^{{{e}}}" for key, e in powers.items()]
+        magnitude = abs(coeff)
+        text = " ".join(sorted(factors))
+        if magnitude != 1 or not factors:
+            number = str(magnitude.numerator) if magnitude.denominator == 1 else \
+                rf"\frac{{{magnitude.numerator}}}{{{magnitude.denominator}}}"
+            text = f"{number} {text}".strip()
+        parts.append(("- " if coeff < 0 else "+ ") + text)
+    joined = " ".join(parts)
+    return joined[2:] if joined.startswith("+ ") else joined
 
 
 # -- the polynomial evaluation route ------------------------------------------------

@@ -38,9 +38,10 @@ def formula_latex(formula: Formula, expression: sympy.Expr | None = None) -> str
     """``<quantity symbol> = <LaTeX of the expression>`` (the exact form by default)."""
     from ..readable import latex_name
 
-    expr = formula.expr if expression is None else expression
-    names = {s: latex_name(s.name) for s in expr.free_symbols if isinstance(s, sympy.Symbol)}
-    return f"{quantity_symbol(formula)} = {sympy.latex(expr, symbol_names=names)}"
+    if expression is None:
+        return f"{quantity_symbol(formula)} = {formula.latex({s.name: latex_name(s.name) for s in formula.symbols})}"
+    names = {s: latex_name(s.name) for s in expression.free_symbols if isinstance(s, sympy.Symbol)}
+    return f"{quantity_symbol(formula)} = {sympy.latex(expression, symbol_names=names)}"
 
 
 _RELATIONS = ((">>", r"\gg"), ("<<", r"\ll"), ("~", r"\sim"))
