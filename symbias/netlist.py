@@ -310,7 +310,6 @@ def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> 
         raise NetlistError(
             f"{tokens[0]}: subcircuit {sub.name} has {len(sub.ports)} ports, got {len(nodes)} nodes", line=line.number
         )
-    outer = {k: mapping.get(v, v if v == GROUND else prefix.lower() + v) for k, v in zip([], [])}
     port_map = {}
     for port, node in zip(sub.ports, nodes):
         port_map[_node(port)] = node if node == GROUND else mapping.get(node, (prefix.lower() + node) if prefix else node)
@@ -327,7 +326,6 @@ def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> 
                 Line(line.number, body_line.text), local, models, subckts, inner_prefix, port_map, depth + 1
             )
         )
-    del outer
     return elements
 
 
