@@ -29,6 +29,7 @@ Examples
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping
@@ -45,6 +46,7 @@ __all__ = [
     "expand",
     "LAPLACE",
     "device_symbol_name",
+    "identifier",
     "bias_values",
 ]
 
@@ -212,10 +214,27 @@ def device_symbol_name(parameter: str, device: str, group: str | None, single_gr
     'gm'
     >>> device_symbol_name("gm", "Q1", "QN", False)
     'gm_QN'
+    >>> device_symbol_name("ro", "X1.Q2", None, False)  # flattened subcircuit names
+    'ro_X1_Q2'
     """
     if group is None:
-        return f"{parameter}_{device}"
-    return parameter if single_group else f"{parameter}_{group}"
+        return f"{parameter}_{identifier(device)}"
+    return parameter if single_group else f"{parameter}_{identifier(group)}"
+
+
+def identifier(name: str) -> str:
+    """``name`` as a plain identifier: characters other than letters, digits and _ become _.
+
+    Symbols must read back as plain names (the JSON ``exact`` string), while
+    flattened subcircuit elements are named like ``X1.Q2``.
+
+    Examples
+    --------
+    >>> identifier("X1.Xa.R1")
+    'X1_Xa_R1'
+    """
+    text = re.sub(r"\W", "_", name)
+    return text if text and not text[0].isdigit() else f"_{text}"
 
 
 @dataclass(frozen=True)
@@ -281,7 +300,7 @@ _SOURCE_MEANING = {
 def _passive_value(element: Element, options: SmallSignalOptions) -> sympy.Expr:
     value = element.value
     if options.symbolic_passives and value.is_Number:
-        return sympy.Symbol(element.name)
+        return sympy.Symbol(identifier(element.name))
     return value
 
 

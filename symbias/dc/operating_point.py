@@ -201,7 +201,10 @@ class OperatingPoint:
         >>> round(op.symbol_values()["gm_Q1"] * 1e3, 1)
         38.3
         """
-        return {f"{key}_{name}": value for name, dev in self.devices.items() for key, value in dev.small_signal.items()}
+        from ..network import device_symbol_name
+
+        return {device_symbol_name(key, name, None, False): value
+                for name, dev in self.devices.items() for key, value in dev.small_signal.items()}
 
     @property
     def supply_current(self) -> float:
