@@ -41,7 +41,7 @@ from .mna import LinearProblem, RingVariable, Solution
 from .numeric import evaluate_expression, normalise_values, solve_problem
 from .polys import Ring
 
-__all__ = ["Formula", "TERM_BUDGET", "POLYNOMIAL_ROUTE_TERMS"]
+__all__ = ["Formula", "TERM_BUDGET", "POLYNOMIAL_ROUTE_TERMS", "cancel_common_factor"]
 
 #: Largest result (numerator plus denominator terms) turned into a sympy expression;
 #: sympy needs seconds per 10,000 terms, so larger results are written from their terms.
@@ -107,10 +107,8 @@ class Formula:
         """
         ring = solution.ring
         num, den = solution.numerator, solution.denominator
-        if cancel and ring.nterms(num) + ring.nterms(den) < CANCEL_TERMS and not ring.is_zero(num):
-            common = _common_factor(ring, num, den)
-            if common is not None:
-                num, den = ring.exact_div(num, common), ring.exact_div(den, common)
+        if cancel:
+            num, den = cancel_common_factor(ring, num, den)
         num, den = _normalise(ring, num, den)
         return cls(ring=ring, variables=solution.variables, numerator=num, denominator=den, **fields)
 
@@ -326,6 +324,50 @@ class Formula:
         return filled
 
     # -- calculus -------------------------------------------------------------------
+    def symbol_generators(self, name: str) -> tuple[int | None, int | None, list[sympy.Expr]]:
+        """Where a user symbol enters the ring.
+
+        Returns
+        -------
+        direct, inverse : int or None
+            Index of the generator ``x`` and of ``1/x`` (None when absent).
+        inside : list of sympy.Expr
+            Non-polynomial sub-expressions that contain the symbol.
+        """
+        direct = inverse = None
+        inside = []
+        for i, variable in enumerate(self.variables):
+            if variable.symbol == name:
+                if variable.power == 1:
+                    direct = i
+                else:
+                    inverse = i
+            elif not variable.power and name in {s.name for s in variable.meaning.free_symbols}:
+                inside.append(variable.meaning)
+        return direct, inverse, inside
+
+    def polynomial_derivative(self, poly: Any, name: str) -> Any:
+        """d(poly)/d(name) of a polynomial of this formula's ring, as a ring polynomial.
+
+        Uses d/dx = d/d[x] - [1/x]**2 d/d[1/x] on the ring generators.
+
+        Raises
+        ------
+        AnalysisError
+            If the symbol also occurs inside a non-polynomial sub-expression.
+        """
+        ring = self.ring
+        direct, inverse, inside = self.symbol_generators(name)
+        if inside:
+            raise AnalysisError(f"cannot differentiate through the sub-expression {inside[0]}")
+        out = ring.zero
+        if direct is not None:
+            out = out + ring.derivative(poly, direct)
+        if inverse is not None:
+            g = ring.gens[inverse]
+            out = out - g * g * ring.derivative(poly, inverse)
+        return out
+
     def derivative(self, symbol: str | sympy.Symbol) -> "Formula":
         """Exact derivative with respect to a user symbol, as a new formula.
 
@@ -337,27 +379,8 @@ class Formula:
             If the symbol also occurs inside a non-polynomial sub-expression.
         """
         name = symbol.name if isinstance(symbol, sympy.Symbol) else str(symbol)
-        ring = self.ring
-        direct = inverse = None
-        for i, variable in enumerate(self.variables):
-            if variable.symbol == name and variable.power == 1:
-                direct = i
-            elif variable.symbol == name and variable.power == -1:
-                inverse = i
-            elif not variable.power and sympy.Symbol(name) in variable.meaning.free_symbols:
-                raise AnalysisError(f"cannot differentiate through the sub-expression {variable.meaning}")
-
-        def d(poly):
-            out = ring.zero
-            if direct is not None:
-                out = out + ring.derivative(poly, direct)
-            if inverse is not None:
-                g = ring.gens[inverse]
-                out = out - g * g * ring.derivative(poly, inverse)
-            return out
-
         num, den = self.numerator, self.denominator
-        numerator = d(num) * den - num * d(den)
+        numerator = self.polynomial_derivative(num, name) * den - num * self.polynomial_derivative(den, name)
         return self.with_polynomials(
             numerator,
             den * den,
@@ -365,6 +388,20 @@ class Formula:
             label=f"d({self.label})/d{name}",
             unit=f"({self.unit})/[{name}]",
         )
+
+
+def cancel_common_factor(ring: Ring, num, den) -> tuple[Any, Any]:
+    """``num/den`` with their common polynomial factor divided out.
+
+    Only for results of fewer than :data:`CANCEL_TERMS` terms (a gcd per
+    result); larger ones, and a zero numerator, are returned as they are.
+    """
+    if ring.nterms(num) + ring.nterms(den) >= CANCEL_TERMS or ring.is_zero(num):
+        return num, den
+    common = _common_factor(ring, num, den)
+    if common is None:
+        return num, den
+    return ring.exact_div(num, common), ring.exact_div(den, common)
 
 
 def _common_factor(ring: Ring, num, den):

@@ -81,14 +81,9 @@ def limit(formula: Formula, name: str, toward: str = "infinity") -> Formula:
     if toward not in ("infinity", "zero"):
         raise ValueError(f"toward must be 'infinity' or 'zero', got {toward!r}")
     ring = formula.ring
-    up = down = None
-    for i, variable in enumerate(formula.variables):
-        if variable.symbol == name and variable.power == 1:
-            up = i
-        elif variable.symbol == name and variable.power == -1:
-            down = i
-        elif not variable.power and name in {s.name for s in variable.meaning.free_symbols}:
-            raise AnalysisError(f"cannot take the limit of {name} inside {variable.meaning}")
+    up, down, inside = formula.symbol_generators(name)
+    if inside:
+        raise AnalysisError(f"cannot take the limit of {name} inside {inside[0]}")
     if up is None and down is None:
         return formula
     if ring.is_zero(formula.numerator):

@@ -29,7 +29,7 @@ import numpy as np
 import sympy
 
 from .errors import AnalysisError
-from .formula import Formula
+from .formula import Formula, cancel_common_factor
 
 __all__ = [
     "Sensitivity",
@@ -43,14 +43,6 @@ __all__ = [
 
 #: Largest formula (numerator plus denominator terms) given a symbolic sensitivity.
 SYMBOLIC_TERMS = 200
-
-
-def _side_derivative(formula: Formula, poly: Any, name: str) -> Any:
-    """d(poly)/d(name) in the ring, through :meth:`Formula.derivative` of ``poly/1``."""
-    ring = formula.ring
-    part = formula.with_polynomials(poly, ring.one).derivative(name)
-    ((_, scale),) = ring.terms(part.denominator)  # a constant: the square of the constant 1
-    return part.numerator if scale == 1 else ring.scale(part.numerator, 1 / scale)
 
 
 def _check(formula: Formula, name: str) -> None:
@@ -74,21 +66,14 @@ def sensitivity(formula: Formula, name: str) -> Formula:
     _check(formula, name)
     ring = formula.ring
     num, den = formula.numerator, formula.denominator
-    top = _side_derivative(formula, num, name) * den - num * _side_derivative(formula, den, name)
+    top = formula.polynomial_derivative(num, name) * den - num * formula.polynomial_derivative(den, name)
     bottom = num * den
-    for i, variable in enumerate(formula.variables):
-        if variable.symbol == name and variable.power == 1:
-            top = top * ring.gens[i]
-            break
-    else:
-        for i, variable in enumerate(formula.variables):
-            if variable.symbol == name and variable.power == -1:
-                bottom = bottom * ring.gens[i]
-                break
-    if ring.nterms(top) + ring.nterms(bottom) < 20_000 and not ring.is_zero(top):
-        common = ring.gcd(top, bottom)
-        if ring.nterms(common) > 1 or any(ring.degrees(common)):
-            top, bottom = ring.exact_div(top, common), ring.exact_div(bottom, common)
+    direct, inverse, _ = formula.symbol_generators(name)
+    if direct is not None:
+        top = top * ring.gens[direct]
+    elif inverse is not None:
+        bottom = bottom * ring.gens[inverse]
+    top, bottom = cancel_common_factor(ring, top, bottom)
     return formula.with_polynomials(top, bottom, quantity="sensitivity", label=f"S({formula.label}, {name})",
                                     unit="1", problem=None)
 
@@ -99,7 +84,7 @@ def sensitivity_value(formula: Formula, name: str, values: Mapping[Any, Any]) ->
     ring = formula.ring
     total = 0.0
     for poly, sign in ((formula.numerator, 1.0), (formula.denominator, -1.0)):
-        slope = _side_derivative(formula, poly, name)
+        slope = formula.polynomial_derivative(poly, name)
         if ring.is_zero(slope):
             continue
         ratio = formula.with_polynomials(slope, poly, problem=None)
