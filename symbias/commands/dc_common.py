@@ -16,19 +16,34 @@ from typing import Any
 
 from ..errors import CircuitError
 
-__all__ = ["add_dc_arguments", "parse_assignments", "load_inputs", "design_defaults", "json_safe", "console", "DESIGN_AID"]
+__all__ = ["add_dc_arguments", "add_design_arguments", "design_inputs", "parse_assignments", "load_inputs",
+           "design_defaults", "json_safe", "console", "DESIGN_AID"]
 
 DESIGN_AID = ("Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
               "circuits follow local codes and licensed practice.")
 
 
+def add_design_arguments(group) -> None:
+    """Add --process, --temp and --set: what a circuit needs to become numbers."""
+    group.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
+    group.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
+    group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
+                       help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
+
+
+def design_inputs(args: argparse.Namespace, topology) -> tuple[dict[str, float], object]:
+    """(numbers for free symbols, process or None) from --set, library defaults and --process."""
+    from ..process import load_process
+
+    values = design_defaults(topology)
+    values.update(parse_assignments(args.set, "--set"))
+    return values, (load_process(args.process) if args.process else None)
+
+
 def add_dc_arguments(parser: argparse.ArgumentParser) -> None:
     """Add the netlist, --process, --temp, --set, --guess and --json arguments."""
     parser.add_argument("netlist", help="netlist file (or a topology identifier from the library)")
-    parser.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
-    parser.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
-    parser.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
-                        help="number for a free symbol in the netlist (repeatable)")
+    add_design_arguments(parser)
     parser.add_argument("--guess", action="append", default=[], metavar="NODE=VOLTS",
                         help="starting voltage of a node, to pick one of several solutions (repeatable)")
     parser.add_argument("--json", action="store_true", help="print one JSON object")
@@ -56,13 +71,10 @@ def parse_assignments(items: list[str], flag: str) -> dict[str, float]:
 
 def load_inputs(args: argparse.Namespace):
     """(circuit, process or None, values, guess) from the common arguments."""
-    from ..process import load_process
     from .derive import load_target
 
     circuit, topology = load_target(args.netlist, getattr(args, "library", None))
-    process = load_process(args.process) if args.process else None
-    values = design_defaults(topology)
-    values.update(parse_assignments(args.set, "--set"))
+    values, process = design_inputs(args, topology)
     return circuit, process, values, parse_assignments(args.guess, "--guess")
 
 

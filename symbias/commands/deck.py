@@ -18,7 +18,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..errors import CircuitError, NetlistError
+from ..errors import NetlistError
 
 __all__ = ["register", "run", "signoff_deck"]
 
@@ -32,6 +32,8 @@ _ANALYSES = {
 
 def register(subparsers) -> None:
     """Add the ``deck`` sub-command."""
+    from .dc_common import add_design_arguments
+
     p = subparsers.add_parser(
         "deck",
         help="write a SPICE deck (numbers and models filled in) for the sign-off simulation",
@@ -41,10 +43,7 @@ def register(subparsers) -> None:
         "models and measurement.",
     )
     p.add_argument("netlist", help="netlist file, or a topology identifier from the library")
-    p.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
-    p.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
-    p.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
-                   help="number for a free symbol (repeatable); library defaults otherwise")
+    add_design_arguments(p)
     p.add_argument("--analysis", choices=tuple(_ANALYSES), default="op",
                    help="control block to include (default: operating point, print all)")
     p.add_argument("--output", "-o", metavar="FILE", help="write the deck to FILE instead of stdout")
@@ -70,15 +69,11 @@ def signoff_deck(circuit, process=None, temperature: float = 27.0, values=None, 
 
 def run(args: argparse.Namespace) -> int:
     """Build the whole deck first, then print or write it (nothing is written on error)."""
-    from ..process import load_process
-    from .dc_common import design_defaults, parse_assignments
+    from .dc_common import design_inputs
     from .derive import load_target
 
     circuit, topology = load_target(args.netlist, args.library)
-    values = design_defaults(topology)
-    values.update(parse_assignments(args.set, "--set"))
-    _check_numbers(circuit, values)
-    process = load_process(args.process) if args.process else None
+    values, process = design_inputs(args, topology)
     text = signoff_deck(circuit, process, args.temp, values, args.analysis)
     if args.output:
         try:
@@ -89,14 +84,3 @@ def run(args: argparse.Namespace) -> int:
         sys.stdout.write(text)
     return 0
 
-
-def _check_numbers(circuit, values) -> None:
-    """Every free symbol of an element value needs a number (a deck has no symbols)."""
-    for element in circuit.elements:
-        for value in [element.value, *element.params.values()]:
-            if value is None:
-                continue
-            missing = sorted(s.name for s in value.free_symbols if s.name not in values)
-            if missing:
-                raise CircuitError(f"{element.name}: no number for {', '.join(missing)} (use --set NAME=VALUE)",
-                                   path=circuit.path, line=element.line)

@@ -75,13 +75,12 @@ def register(subparsers) -> None:
                         help="normalised sensitivities (x/F) dF/dx, ranked at the centre of the assumed ranges")
     approx.add_argument("--mirror-error", action="store_true",
                         help="for current gains: error 1 - gain/ideal, to leading order and split by cause")
+    from .dc_common import add_design_arguments
+
     bias = p.add_argument_group("numbers at the DC operating point")
     bias.add_argument("--at-bias", action="store_true",
                       help="solve the DC operating point and evaluate each result with its gm, rpi, ro, gmb")
-    bias.add_argument("--process", metavar="FILE", help="process file (TOML) for --at-bias; .model cards override it")
-    bias.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature for --at-bias (degC)")
-    bias.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
-                      help="number for a free netlist symbol (repeatable); library defaults otherwise")
+    add_design_arguments(bias)
     out = p.add_argument_group("output")
     out.add_argument("--format", choices=("text", "latex", "markdown", "json", "python"), default=None,
                      help="output form (default text)")
@@ -284,7 +283,7 @@ def run(args: argparse.Namespace) -> int:
     for r in results:
         rows = approximation_rows(r.approximation) if r.approximation is not None else []
         if at_bias is not None:
-            rows.insert(0, ("at the operating point", _value_text(r.formula, at_bias)))
+            rows.insert(0, ("at the operating point", _value_text(r.formula, at_bias, args.temp)))
         if r.error is not None:
             rows.append(("error 1 - gain/ideal", f"~ {r.error.leading.text}  (worst error "
                                                  f"{100 * r.error.leading.error:.3g} %; ideal {r.error.ideal.expr})"))
@@ -306,16 +305,12 @@ def bias_point(args: argparse.Namespace, circuit, topology, options) -> dict[str
     """
     from ..dc.operating_point import operating_point
     from ..network import bias_values
-    from ..process import load_process
-    from .dc_common import design_defaults, parse_assignments
+    from .dc_common import design_inputs
 
-    values = design_defaults(topology)
-    values.update(parse_assignments(args.set, "--set"))
-    process = load_process(args.process) if args.process else None
+    values, process = design_inputs(args, topology)
     point = operating_point(circuit, process, args.temp, values)
     numbers = dict(values)
     numbers.update(bias_values(circuit, point.small_signal_values(), options))
-    numbers["temperature_degC"] = args.temp
     return numbers
 
 
@@ -330,7 +325,7 @@ def _value_at(formula, values: dict[str, float]) -> float | None:
     return value if math.isfinite(value) else None
 
 
-def _value_text(formula, values: dict[str, float]) -> str:
+def _value_text(formula, values: dict[str, float], temperature: float) -> str:
     from ..render.text import engineering
 
     missing = [s.name for s in formula.symbols if s.name not in values]
@@ -343,4 +338,4 @@ def _value_text(formula, values: dict[str, float]) -> str:
         shown = f"{value:.6g}"  # a ratio reads better without an SI prefix
     else:
         shown = engineering(value)
-    return f"{shown} {formula.unit} at {values['temperature_degC']:g} degC"
+    return f"{shown} {formula.unit} at {temperature:g} degC"
