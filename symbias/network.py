@@ -241,8 +241,9 @@ def identifier(name: str) -> str:
 class DeviceSymbols:
     """Symbols of one device after matching, with the multiplier applied.
 
-    ``value(param)`` is the sympy value the device's model uses for that
-    parameter (e.g. ``2*gm`` for a device of multiplier 2 in a matched group).
+    ``conductance_like(param)`` and ``resistance_like(param)`` give the sympy
+    value the device's model uses (e.g. ``2*gm`` and ``ro/2`` for a device of
+    multiplier 2 in a matched group).
     """
 
     device: str
