@@ -70,7 +70,7 @@ def _deck_cases() -> Iterator[tuple[str, str, str, Callable[[], Any], list[str]]
     from symbias.commands.derive import default_quantities
     from symbias.errors import SymbiasError
     from symbias.netlist import read_netlist
-    from symbias.network import SmallSignalOptions
+    from symbias.devices.options import SmallSignalOptions
 
     decks = sorted((ROOT / "examples").glob("*.cir")) + sorted((ROOT / "tests" / "decks" / "approx").glob("*.cir"))
     models = (("matched", SmallSignalOptions(match=True, beta=True)), ("unmatched", SmallSignalOptions()))
@@ -142,7 +142,7 @@ def main() -> int:
 def _warm_up_formula():
     from symbias.analyses import output_resistance
     from symbias.netlist import read_netlist
-    from symbias.network import SmallSignalOptions
+    from symbias.devices.options import SmallSignalOptions
 
     return output_resistance(read_netlist(ROOT / "examples" / "wilson_mirror.cir"), "Vout", SmallSignalOptions())
 

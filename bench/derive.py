@@ -184,10 +184,10 @@ def worker_symbias(task: dict) -> dict:
     import warnings
 
     from symbias.analyses import output_resistance, transimpedance
-    from symbias.circuit import CircuitWarning
-    from symbias.mna import LinearProblem, solve
+    from symbias.errors import CircuitWarning
+    from symbias.linear.mna import LinearProblem, solve
     from symbias.netlist import parse_netlist
-    from symbias.network import expand
+    from symbias.linear.network import expand
 
     warnings.simplefilter("ignore", CircuitWarning)  # the top node has one connection by design
     n, backend = task["nodes"], task["backend"]
@@ -259,10 +259,10 @@ def _matrix_task(n: int) -> dict:
     """The stack's polynomial MNA matrix as symbias builds it, in a JSON-able form."""
     import warnings
 
-    from symbias.circuit import CircuitWarning
-    from symbias.mna import build_system, unknowns
+    from symbias.errors import CircuitWarning
+    from symbias.linear.mna import build_system, unknowns
     from symbias.netlist import parse_netlist
-    from symbias.network import expand
+    from symbias.linear.network import expand
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", CircuitWarning)
@@ -312,8 +312,8 @@ def worker_method(task: dict) -> dict:
     # Every method yields (numerator, denominator) of Rout = (A^-1)[out,out] and of
     # the transfer (A^-1)[out,in] = C[in,out]/det, as ring polynomials or sympy expressions.
     if method in ("minor-flint", "minor-sympy"):
-        from symbias.mna import CofactorSolver
-        from symbias.polys import make_ring
+        from symbias.linear.mna import CofactorSolver
+        from symbias.linear.polys import make_ring
 
         ring = make_ring(tuple(matrix["names"]), method.split("-")[1])
         entries = {(r, c): ring.from_terms([(tuple(e), Fraction(q)) for e, q in terms])
@@ -511,7 +511,7 @@ def bench_examples(backends: tuple[str, ...], budget: float) -> tuple[str, list[
     import warnings
 
     from symbias.analyses import current_gain, output_resistance
-    from symbias.circuit import CircuitWarning
+    from symbias.errors import CircuitWarning
     from symbias.netlist import read_netlist
 
     warnings.simplefilter("ignore", CircuitWarning)
@@ -594,7 +594,7 @@ def main(argv: list[str] | None = None) -> int:
     emit("## (b) Synthetic cascode stack: symbias vs lcapy, whole process (netlist text to exact result)")
     emit()
     emit("Quantities: output impedance at the top node and transimpedance bottom -> top. `solve` is the engine's")
-    emit("`symbias.mna.solve` of the output-impedance problem (stamping, encoding, memoised cofactor expansion).")
+    emit("`symbias.linear.mna.solve` of the output-impedance problem (stamping, encoding, memoised cofactor expansion).")
     emit()
     rows, targets = [], []
     lcapy_dead = sympy_dead = False

@@ -85,8 +85,8 @@ def assembled_system(problem, values: dict[str, np.ndarray]):
     Assembled here from the stamped entries, so the reference times only the
     batched solve itself.
     """
-    from symbias.mna import stamp, unknowns
-    from symbias.numeric import evaluate_expression
+    from symbias.linear.mna import stamp, unknowns
+    from symbias.linear.numeric import evaluate_expression
 
     labels = unknowns(problem.network)
     index = {label: i for i, label in enumerate(labels)}
@@ -116,7 +116,7 @@ def _median_time(work, budget: float) -> tuple[float, object]:
 def measure_cell(text: str, count: int, budget: float) -> dict:
     """Time both evaluation routes and the reference solve for one cell's output resistance."""
     from symbias.analyses import output_resistance
-    from symbias.circuit import CircuitWarning
+    from symbias.errors import CircuitWarning
     from symbias.netlist import parse_netlist
 
     with warnings.catch_warnings():

@@ -42,8 +42,9 @@ from __future__ import annotations
 from .circuit import GROUND, Circuit, Element
 from .errors import CircuitError
 from .formula import Formula
-from .mna import LinearProblem, solve
-from .network import LinearNetwork, SmallSignalOptions, expand
+from .linear.mna import LinearProblem, solve
+from .devices.options import SmallSignalOptions
+from .linear.network import LinearNetwork, expand
 
 __all__ = [
     "SmallSignalOptions",

@@ -47,7 +47,7 @@ Examples
 --------
 >>> from symbias.netlist import parse_netlist
 >>> from symbias.analyses import output_resistance
->>> from symbias.network import SmallSignalOptions
+>>> from symbias.devices.options import SmallSignalOptions
 >>> deck = '''cascode sink
 ... VB1 g1 0 1
 ... VB2 g2 0 2
@@ -79,8 +79,13 @@ from typing import Any, Iterable, Mapping, Sequence
 import numpy as np
 import sympy
 
-from .errors import AnalysisError, SymbiasError
+from .errors import AnalysisError, AssumptionError, SymbiasError
+from .expressions import Expr
 from .formula import Formula
+from .symbols import ohm_power, owners, unit_of
+
+#: Device parameters the hand-analysis defaults speak about.
+_DEFAULT_PARAMETERS = ("gm", "gmb", "ro", "rpi", "beta")
 
 __all__ = [
     "Assumption",
@@ -130,10 +135,6 @@ _STORE_ENTRIES = 8_000_000  # term values (points x terms) kept in memory; beyon
 _CHUNK_ENTRIES = 2_000_000  # term values computed in one numpy pass
 _SMALL_PRODUCT = 8_000_000  # multiply-adds up to which a matrix product is cut into single-thread pieces
 _SINGLE_THREAD_PRODUCT = 262_144  # multiply-adds below which OpenBLAS keeps a product on one thread
-
-
-class AssumptionError(SymbiasError, ValueError):
-    """A magnitude assumption cannot be read or the set admits no point."""
 
 
 # ----------------------------------------------------------------------------------------
@@ -293,11 +294,11 @@ def _split(text: str, op: str) -> tuple[str, str]:
     return parts[0].strip(), parts[1].strip()
 
 
-def _side(text: str) -> sympy.Expr:
+def _side(text: str) -> Expr:
     from .expressions import parse_expression, try_parse_number
 
     number = try_parse_number(text)
-    return sympy.Integer(1) * number if number is not None else parse_expression(text)
+    return number if number is not None else parse_expression(text)
 
 
 def _bound(text: str) -> float:
@@ -307,24 +308,24 @@ def _bound(text: str) -> float:
     return float(value)
 
 
-def _statement(text: str, ratio: sympy.Expr, low: float, high: float, origin: str) -> Assumption:
-    coeff, rest = sympy.Mul(ratio).as_coeff_Mul()
-    if not coeff.is_positive:
+def _statement(text: str, ratio: Expr, low: float, high: float, origin: str) -> Assumption:
+    from .expressions import Symbol
+
+    terms = ratio.terms()
+    if len(terms) != 1:
+        raise AssumptionError(f"{text!r}: the ratio of the two sides must be a product of powers of symbols")
+    (monomial, coeff), = terms.items()
+    if not coeff > 0:
         raise AssumptionError(f"{text!r}: both sides must be positive")
     powers = []
-    for base, exponent in rest.as_powers_dict().items():
-        if base == 1:
-            continue
-        if not base.is_Symbol or not exponent.is_Rational:
+    for base, exponent in monomial:
+        if not isinstance(base, Symbol):
             raise AssumptionError(f"{text!r}: the ratio of the two sides must be a product of powers of symbols")
         powers.append((base.name, float(exponent)))
     if not powers:
         raise AssumptionError(f"{text!r} compares numbers only")
     scale = float(coeff)
     return Assumption(text, tuple(powers), low / scale, high / scale, origin)
-
-
-_DEVICE_SYMBOL = re.compile(r"^(gm|gmb|ro|rpi|beta)(?:_(\w+))?$")
 
 
 def default_assumptions(names: Iterable[str]) -> tuple[Assumption, ...]:
@@ -337,11 +338,9 @@ def default_assumptions(names: Iterable[str]) -> tuple[Assumption, ...]:
     >>> [a.text for a in default_assumptions(["gm_M1", "gm_M2", "gmb_M2", "ro_M1", "ro_M2"])]
     ['gm_M1*ro_M1 >> 1', 'gm_M2 ~ gm_M1', 'ro_M2 ~ ro_M1', 'gm_M2*ro_M2 >> 1', '0.05 < gmb_M2/gm_M2 < 0.4']
     """
-    groups: dict[str, dict[str, str]] = {}
-    for name in sorted(names):
-        match = _DEVICE_SYMBOL.match(name)
-        if match:
-            groups.setdefault(match.group(2) or "", {})[match.group(1)] = name
+    groups = {owner: {k: v for k, v in params.items() if k in _DEFAULT_PARAMETERS}
+              for owner, params in owners(names).items()}
+    groups = {owner: params for owner, params in groups.items() if params}
     own: dict[str, list[Assumption]] = {}
     late: list[Assumption] = []
     for suffix in sorted(groups):
@@ -574,22 +573,13 @@ class MagnitudeModel:
         return {n: float(np.exp(v)) for n, v in zip(self.names, logs)}
 
 
-def _dimension(name: str, meanings: Mapping[str, str]) -> int:
+def _dimension(name: str, meanings: Mapping[str, object]) -> int:
     """Power of ohm in the unit of a symbol: resistance 1, conductance -1, ratio 0."""
-    text = meanings.get(name, "")
-    if text.endswith("]") and "[" in text:
-        unit = text[text.rfind("[") + 1 : -1].strip()
-        known = {"ohm": 1, "A/V": -1, "S": -1, "A/A": 0, "V/V": 0, "": 0}
-        if unit in known:
-            return known[unit]
-        raise AnalysisError(f"cannot approximate over {name} [{unit}]: only resistive results are supported; "
-                            "evaluate frequency-dependent results numerically")
-    lowered = name.lower()
-    if lowered.startswith(("gm", "g")):
-        return -1
-    if lowered.startswith("r"):
-        return 1
-    return 0
+    power = ohm_power(name, meanings)
+    if power is None:
+        raise AnalysisError(f"cannot approximate over {name} [{unit_of(name, meanings)}]: only resistive results "
+                            "are supported; evaluate frequency-dependent results numerically")
+    return power
 
 
 def magnitude_model(
@@ -727,7 +717,7 @@ class _Terms:
         glog = _dot(logs, self.symbol_map)
         gsign = np.ones_like(glog)
         if self.special:
-            from .numeric import evaluate_expression
+            from .linear.numeric import evaluate_expression
 
             values = {n: np.exp(logs[:, i]) for i, n in enumerate(self.names)}
             for g in self.special:

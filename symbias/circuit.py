@@ -3,25 +3,9 @@
 Second step of the text side (``netlist`` text -> :class:`Circuit`).  A
 circuit holds data only; analyses are free functions in other modules that
 take a circuit.  Every "edit" (:meth:`Circuit.without`, :meth:`Circuit.replace_element`)
-returns a new circuit.
-
-Element kinds and their node order (SPICE element letters):
-
-====  ==========================  ===================================
-kind  nodes                       value
-====  ==========================  ===================================
-R     n1 n2                       resistance
-C     n1 n2                       capacitance
-L     n1 n2                       inductance
-V     n+ n-                       DC value (zeroed in small-signal work)
-I     n+ n-                       DC value, flows n+ -> through source -> n-
-G     n+ n- nc+ nc-               transconductance, i(n+ -> n-) = g v(nc+, nc-)
-E     n+ n- nc+ nc-               voltage gain
-F     n+ n-  (control: V name)    current gain, i(n+ -> n-) = f i(Vctrl)
-H     n+ n-  (control: V name)    transresistance
-Q     c b e [s]                   model name; ``area``, ``m`` parameters
-M     d g s b                     model name; ``w``, ``l``, ``m`` parameters
-====  ==========================  ===================================
+returns a new circuit.  Element kinds, their terminals and what they accept
+come from the registry in :mod:`symbias.elements`; values are exact
+:mod:`symbias.expressions` trees.
 
 Examples
 --------
@@ -33,46 +17,30 @@ Examples
 1000
 """
 
+
 from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass, field, replace
 from types import MappingProxyType
-from typing import Mapping
+from typing import Any, Iterable, Mapping
 
-import sympy
-
-from .errors import CircuitError
+from .elements import DEVICE_LETTERS, KINDS
+from .errors import CircuitError, CircuitWarning
+from .expressions import ONE, Expr, as_expr
 
 __all__ = [
     "Element",
     "Model",
     "Circuit",
     "GROUND",
-    "TERMINALS",
-    "DEVICE_KINDS",
-    "MODEL_KINDS",
     "validate",
-    "CircuitWarning",
+    "conducting_pairs",
+    "components",
 ]
 
 GROUND = "0"
 
-#: Number of nodes each element kind takes (Q takes 3 or 4).
-TERMINALS: dict[str, tuple[int, ...]] = {
-    "R": (2,), "C": (2,), "L": (2,), "V": (2,), "I": (2,),
-    "G": (4,), "E": (4,), "F": (2,), "H": (2,), "Q": (3, 4), "M": (4,),
-}
-
-#: Element kinds that refer to a ``.model``.
-DEVICE_KINDS = {"Q": ("npn", "pnp"), "M": ("nmos", "pmos")}
-
-#: Model types symbias understands, by element letter.
-MODEL_KINDS = {"npn": "Q", "pnp": "Q", "nmos": "M", "pmos": "M"}
-
-
-class CircuitWarning(UserWarning):
-    """A circuit is usable but probably not what was meant (e.g. a dangling node)."""
 
 
 def _frozen_mapping(data: Mapping | None) -> Mapping:
@@ -90,13 +58,13 @@ class Element:
     kind : str
         Upper-case SPICE letter (``R``, ``Q``, ...).
     nodes : tuple of str
-        Node names (lower case, ground is ``"0"``) in the order of the table above.
-    value : sympy.Expr or None
+        Node names (lower case, ground is ``"0"``) in the order of the kind's terminals.
+    value : Expr or None
         Primary value: resistance, capacitance, DC value, gain. None for devices.
     control : str or None
         Controlling voltage source of an F or H element.
     model : str or None
-        Model name of a Q or M element.
+        Model name of a device (Q, M, D).
     params : mapping
         Instance parameters, lower-case keys (``area``, ``m``, ``w``, ``l``, ``ac``).
     line : int
@@ -106,19 +74,22 @@ class Element:
     name: str
     kind: str
     nodes: tuple[str, ...]
-    value: sympy.Expr | None = None
+    value: Expr | None = None
     control: str | None = None
     model: str | None = None
-    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    params: Mapping[str, Expr] = field(default_factory=dict)
     line: int = 0
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "params", _frozen_mapping(self.params))
+        object.__setattr__(self, "params", _frozen_mapping({k: as_expr(v) for k, v in dict(self.params).items()}))
         object.__setattr__(self, "nodes", tuple(self.nodes))
-        if self.kind not in TERMINALS:
+        if self.value is not None:
+            object.__setattr__(self, "value", as_expr(self.value))
+        kind = KINDS.get(self.kind)
+        if kind is None:
             raise CircuitError(f"unknown element kind {self.kind!r} for {self.name}", line=self.line)
-        if len(self.nodes) not in TERMINALS[self.kind]:
-            wanted = " or ".join(str(n) for n in TERMINALS[self.kind])
+        if len(self.nodes) not in kind.node_counts:
+            wanted = " or ".join(str(n) for n in kind.node_counts)
             raise CircuitError(
                 f"{self.name}: expected {wanted} nodes, got {len(self.nodes)}", line=self.line
             )
@@ -129,9 +100,9 @@ class Element:
         return self.name.lower()
 
     @property
-    def multiplier(self) -> sympy.Expr:
-        """Parallel-device multiplier: ``m`` times ``area`` (BJT), 1 if absent."""
-        factor = sympy.Integer(1)
+    def multiplier(self) -> Expr:
+        """Parallel-device multiplier: ``m`` times ``area`` (BJT, diode), 1 if absent."""
+        factor: Expr = ONE
         for key in ("m", "area"):
             if key in self.params:
                 factor = factor * self.params[key]
@@ -153,14 +124,15 @@ class Model:
 
     name: str
     type: str
-    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    params: Mapping[str, Expr] = field(default_factory=dict)
     line: int = 0
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "params", _frozen_mapping(self.params))
+        object.__setattr__(self, "params", _frozen_mapping({k: as_expr(v) for k, v in dict(self.params).items()}))
 
     @property
     def key(self) -> str:
+        """Case-insensitive identity of the model."""
         return self.name.lower()
 
     @property
@@ -184,7 +156,7 @@ class Circuit:
         In netlist order.
     models : mapping of str to Model
         Keyed by lower-case model name.
-    params : mapping of str to sympy.Expr
+    params : mapping of str to Expr
         ``.param`` values (lower-case keys), already substituted into elements.
     groups : mapping of str to tuple of str
         Declared matched groups (``.match NAME Q1 Q2 ...``), element keys.
@@ -195,7 +167,7 @@ class Circuit:
     title: str
     elements: tuple[Element, ...]
     models: Mapping[str, Model] = field(default_factory=dict)
-    params: Mapping[str, sympy.Expr] = field(default_factory=dict)
+    params: Mapping[str, Expr] = field(default_factory=dict)
     groups: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
     path: str | None = None
 
@@ -257,8 +229,8 @@ class Circuit:
 
     @property
     def devices(self) -> tuple[Element, ...]:
-        """Transistors (Q and M elements)."""
-        return self.elements_of("Q", "M")
+        """Elements that take a ``.model``: transistors and diodes."""
+        return self.elements_of(*DEVICE_LETTERS)
 
     def model_of(self, element: Element) -> Model:
         """The ``.model`` a device refers to."""
@@ -283,29 +255,68 @@ class Circuit:
 
     # -- graph view ------------------------------------------------------------
     def graph(self):
-        """A networkx MultiGraph: nodes are circuit nodes, one edge per terminal pair.
+        """A networkx MultiGraph: nodes are circuit nodes, one edge per conducting terminal pair.
 
-        Two-terminal elements give one edge; controlled sources give an edge
-        between their output nodes only (the control side draws no current);
-        transistors give an edge from their first terminal to each other one.
-        Each edge carries ``element`` (the name) and ``kind``.
+        Pairs come from each kind's ``small_signal_pairs`` in
+        :mod:`symbias.elements`: two-terminal elements give one edge,
+        controlled sources an edge between their output nodes only (the
+        control side draws no current), transistors an edge from their first
+        terminal to each other one.  Each edge carries ``element`` (the name)
+        and ``kind``.
         """
         import networkx as nx
 
         graph = nx.MultiGraph()
         graph.add_nodes_from(self.nodes)
         for element in self.elements:
-            for a, b in _conducting_pairs(element):
+            for a, b in conducting_pairs(element):
                 graph.add_edge(a, b, element=element.name, kind=element.kind)
         return graph
 
 
-def _conducting_pairs(element: Element) -> list[tuple[str, str]]:
+def conducting_pairs(element: Element, dc: bool = False) -> list[tuple[str, str]]:
+    """Node pairs through which ``element`` conducts, in small signal or (``dc=True``) at DC.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> q = parse_netlist("t\\nV1 c 0 1\\nI1 0 b 1m\\nQ1 c b 0 QN\\n.model QN npn\\n").element("Q1")
+    >>> conducting_pairs(q), conducting_pairs(q, dc=True)
+    ([('c', 'b'), ('c', '0')], [('c', 'b'), ('b', '0')])
+    """
+    kind = KINDS[element.kind]
+    pairs = kind.dc_pairs if dc else kind.small_signal_pairs
     nodes = element.nodes
-    if element.kind in ("Q", "M"):
-        # the substrate (4th BJT node) couples only through ccs; bulk through junctions
-        return [(nodes[0], n) for n in nodes[1:]]
-    return [(nodes[0], nodes[1])]
+    return [(nodes[i], nodes[j]) for i, j in pairs if i < len(nodes) and j < len(nodes)]
+
+
+def components(nodes: Iterable[str], edges: Iterable[tuple[str, str]]) -> list[set[str]]:
+    """Connected groups of ``nodes`` joined by ``edges`` (union-find; no graph library needed).
+
+    Examples
+    --------
+    >>> sorted(map(sorted, components("abcd", [("a", "b"), ("c", "c")])))
+    [['a', 'b'], ['c'], ['d']]
+    """
+    parent: dict[str, str] = {}
+
+    def root(n: str) -> str:
+        parent.setdefault(n, n)
+        while parent[n] != n:
+            parent[n] = parent[parent[n]]
+            n = parent[n]
+        return n
+
+    for n in nodes:
+        root(n)
+    for a, b in edges:
+        ra, rb = root(a), root(b)
+        if ra != rb:
+            parent[ra] = rb
+    groups: dict[str, set[str]] = {}
+    for n in list(parent):
+        groups.setdefault(root(n), set()).add(n)
+    return list(groups.values())
 
 
 def validate(circuit: Circuit) -> tuple[str, ...]:
@@ -314,10 +325,11 @@ def validate(circuit: Circuit) -> tuple[str, ...]:
     Errors (:class:`CircuitError`, with the offending line): no ground node; a
     part of the circuit with no connection to ground; a device with an
     undefined model or a model of the wrong type; a controlled source whose
-    controlling voltage source does not exist; a loop of voltage sources (V, E,
-    H and inductors at DC); a cut set of current sources (a group of nodes
-    reached only through current sources).  Warnings (returned and also issued
-    as :class:`CircuitWarning`): a node with a single connection.
+    controlling voltage source does not exist; a loop of elements that fix a
+    voltage (V, E, H and inductors at DC); a cut set of elements that force a
+    current (a group of nodes reached only through I, G or F).  Warnings
+    (returned and also issued as :class:`~symbias.errors.CircuitWarning`): a
+    node with a single connection.
 
     Examples
     --------
@@ -325,8 +337,6 @@ def validate(circuit: Circuit) -> tuple[str, ...]:
     >>> validate(parse_netlist("t\\nI1 0 a 1m\\nR1 a 0 1k\\n"))
     ()
     """
-    import networkx as nx
-
     path = circuit.path
     if not circuit.elements:
         raise CircuitError("the circuit has no elements", path=path, line=1)
@@ -334,18 +344,19 @@ def validate(circuit: Circuit) -> tuple[str, ...]:
         raise CircuitError("no ground node (node 0 or gnd)", path=path, line=circuit.elements[0].line)
 
     for element in circuit.elements:
-        if element.kind in DEVICE_KINDS:
+        kind = KINDS[element.kind]
+        if kind.is_device:
             model = circuit.models.get((element.model or "").lower())
             if model is None:
                 raise CircuitError(f"{element.name}: undefined model {element.model!r}", path=path, line=element.line)
-            if model.type not in DEVICE_KINDS[element.kind]:
+            if model.type not in kind.model_types:
                 raise CircuitError(
                     f"{element.name}: model {model.name!r} is of type {model.type}, "
-                    f"expected {' or '.join(DEVICE_KINDS[element.kind])}",
+                    f"expected {' or '.join(kind.model_types)}",
                     path=path,
                     line=element.line,
                 )
-        if element.kind in ("F", "H"):
+        if kind.controlled_by_source:
             control = element.control or ""
             if not circuit.has_element(control) or circuit.element(control).kind != "V":
                 raise CircuitError(
@@ -353,12 +364,10 @@ def validate(circuit: Circuit) -> tuple[str, ...]:
                     path=path,
                     line=element.line,
                 )
-        if element.kind in ("G", "E"):
-            pass  # the control nodes only need to exist, which they do by construction
 
-    graph = circuit.graph()
-    # control-only nodes (e.g. a sense node of a G element) still need a DC path
-    for component in nx.connected_components(graph):
+    # control-only nodes (e.g. a sense node of a G element) still need a path to ground
+    edges = [pair for element in circuit.elements for pair in conducting_pairs(element)]
+    for component in components(circuit.nodes, edges):
         if GROUND not in component:
             culprit = _first_element_touching(circuit, component)
             raise CircuitError(
@@ -392,38 +401,35 @@ def _first_element_touching(circuit: Circuit, nodes) -> Element | None:
 
 
 def _check_voltage_loops(circuit: Circuit) -> None:
-    import networkx as nx
+    parent: dict[str, str] = {n: n for n in circuit.nodes}
 
-    forest = nx.Graph()
-    forest.add_nodes_from(circuit.nodes)
+    def root(n: str) -> str:
+        while parent[n] != n:
+            parent[n] = parent[parent[n]]
+            n = parent[n]
+        return n
+
     for element in circuit.elements:
-        if element.kind not in ("V", "E", "H", "L"):
+        if not KINDS[element.kind].fixes_voltage:
             continue
-        a, b = element.nodes[0], element.nodes[1]
-        if a == b or nx.has_path(forest, a, b):
+        a, b = root(element.nodes[0]), root(element.nodes[1])
+        if a == b:
             raise CircuitError(
                 f"{element.name} closes a loop of voltage sources (and inductors)",
                 path=circuit.path,
                 line=element.line,
             )
-        forest.add_edge(a, b)
+        parent[a] = b
 
 
 def _check_current_cutsets(circuit: Circuit) -> None:
-    import networkx as nx
-
-    graph = nx.Graph()
-    graph.add_nodes_from(circuit.nodes)
-    for element in circuit.elements:
-        if element.kind in ("I", "G", "F"):
-            continue
-        for a, b in _conducting_pairs(element):
-            graph.add_edge(a, b)
-    for component in nx.connected_components(graph):
+    edges = [pair for element in circuit.elements if not KINDS[element.kind].forces_current
+             for pair in conducting_pairs(element)]
+    for component in components(circuit.nodes, edges):
         if GROUND in component:
             continue
         culprit = next(
-            (e for e in circuit.elements if e.kind in ("I", "G", "F") and any(n in component for n in e.nodes[:2])),
+            (e for e in circuit.elements if KINDS[e.kind].forces_current and any(n in component for n in e.nodes[:2])),
             None,
         )
         raise CircuitError(

@@ -19,7 +19,7 @@ import warnings
 
 from . import __version__
 from .commands import COMMANDS
-from .circuit import CircuitWarning
+from .errors import CircuitWarning
 from .errors import AnalysisError, SymbiasError
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_ANALYSIS", "EXIT_USAGE"]

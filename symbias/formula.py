@@ -2,13 +2,13 @@
 
 Fifth step of the symbolic side (polynomial system -> :class:`Formula`).  A
 formula keeps numerator and denominator as polynomials of
-:mod:`symbias.polys` (cheap to differentiate, approximate and evaluate) and
+:mod:`symbias.linear.polys` (cheap to differentiate, approximate and evaluate) and
 builds a sympy expression only when asked (:attr:`Formula.expr`), because
 turning a large polynomial into a sympy ``Expr`` costs far more than deriving
 it.
 
 Ring generators stand for a user symbol ``x``, its reciprocal ``1/x`` or a
-non-polynomial sub-expression (see :class:`~symbias.mna.RingVariable`).  The
+non-polynomial sub-expression (see :class:`~symbias.linear.mna.RingVariable`).  The
 user-facing form multiplies numerator and denominator by the lowest powers
 of the symbols that clear every reciprocal, so ``.expr`` is a ratio of two
 polynomials in the user's symbols.
@@ -34,12 +34,12 @@ from types import MappingProxyType
 from typing import Any, Mapping
 
 import numpy as np
-import sympy
 
 from .errors import AnalysisError
-from .mna import LinearProblem, RingVariable, Solution
-from .numeric import evaluate_expression, normalise_values, solve_problem
-from .polys import Ring
+from .expressions import Expr, Power, Symbol
+from .linear.mna import LinearProblem, RingVariable, Solution
+from .linear.numeric import evaluate_expression, normalise_values, solve_problem
+from .linear.polys import Ring
 
 __all__ = ["Formula", "TERM_BUDGET", "POLYNOMIAL_ROUTE_TERMS", "cancel_common_factor"]
 
@@ -119,7 +119,7 @@ class Formula:
 
     # -- structure ----------------------------------------------------------------
     @cached_property
-    def symbols(self) -> tuple[sympy.Symbol, ...]:
+    def symbols(self) -> tuple[Symbol, ...]:
         """The user symbols the result depends on, sorted by name."""
         used = self._used_generators
         names: set[str] = set()
@@ -128,8 +128,8 @@ class Formula:
             if variable.symbol:
                 names.add(variable.symbol)
             else:
-                names |= {s.name for s in variable.meaning.free_symbols}
-        return tuple(sympy.Symbol(n) for n in sorted(names))
+                names |= variable.meaning.names
+        return tuple(Symbol(n) for n in sorted(names))
 
     @cached_property
     def _used_generators(self) -> tuple[int, ...]:
@@ -145,7 +145,8 @@ class Formula:
         """Numerator and denominator terms in user symbols, reciprocals cleared.
 
         Each term is ``({factor: exponent}, coefficient)`` where a factor is a
-        sympy Symbol (or a sub-expression for non-polynomial values); both
+        :class:`~symbias.expressions.Symbol` (or a sub-expression for
+        non-polynomial values); both
         lists are multiplied by the same monomial so every exponent is >= 0.
         """
         keys, matrix = self._user_key_matrix()
@@ -172,8 +173,8 @@ class Formula:
         entries = []
         for v, variable in enumerate(self.variables):
             if variable.power:
-                key, sign = sympy.Symbol(variable.symbol), variable.power
-            elif variable.meaning.is_Pow and variable.meaning.exp == -1:
+                key, sign = Symbol(variable.symbol), variable.power
+            elif isinstance(variable.meaning, Power) and variable.meaning.exponent == -1:
                 key, sign = variable.meaning.base, -1
             else:
                 key, sign = variable.meaning, 1
@@ -196,19 +197,19 @@ class Formula:
             )
 
     @cached_property
-    def numerator_expr(self) -> sympy.Expr:
+    def numerator_expr(self):
         """Numerator as a sympy polynomial expression in the user symbols."""
         self._check_budget()
         return _terms_to_expr(self.user_terms()[0])
 
     @cached_property
-    def denominator_expr(self) -> sympy.Expr:
+    def denominator_expr(self):
         """Denominator as a sympy polynomial expression in the user symbols."""
         self._check_budget()
         return _terms_to_expr(self.user_terms()[1])
 
     @cached_property
-    def expr(self) -> sympy.Expr:
+    def expr(self):
         """The exact result as a sympy expression ``numerator/denominator``."""
         return self.numerator_expr / self.denominator_expr
 
@@ -233,6 +234,8 @@ class Formula:
         symbol_names : mapping of str to str, optional
             LaTeX for symbol names, e.g. ``{"gm_Q1": "g_{m,Q1}"}``.
         """
+        import sympy
+
         names = dict(symbol_names or {})
         if sum(self.nterms) <= TERM_BUDGET:
             mapping = {s: names[s.name] for s in self.expr.free_symbols
@@ -262,8 +265,8 @@ class Formula:
                 value = values.get(variable.symbol)
                 out.append(0.0 if value is None else 1.0 / np.asarray(value, dtype=np.result_type(value, float)))
             else:
-                out.append(evaluate_expression(variable.meaning, values) if variable.meaning.free_symbols <= set(
-                    sympy.Symbol(k) for k in values) else 0.0)
+                out.append(evaluate_expression(variable.meaning, values) if variable.meaning.names <= set(values)
+                           else 0.0)
         return out
 
     @cached_property
@@ -324,14 +327,14 @@ class Formula:
         return filled
 
     # -- calculus -------------------------------------------------------------------
-    def symbol_generators(self, name: str) -> tuple[int | None, int | None, list[sympy.Expr]]:
+    def symbol_generators(self, name: str) -> tuple[int | None, int | None, list[Expr]]:
         """Where a user symbol enters the ring.
 
         Returns
         -------
         direct, inverse : int or None
             Index of the generator ``x`` and of ``1/x`` (None when absent).
-        inside : list of sympy.Expr
+        inside : list of Expr
             Non-polynomial sub-expressions that contain the symbol.
         """
         direct = inverse = None
@@ -342,7 +345,7 @@ class Formula:
                     direct = i
                 else:
                     inverse = i
-            elif not variable.power and name in {s.name for s in variable.meaning.free_symbols}:
+            elif not variable.power and name in variable.meaning.names:
                 inside.append(variable.meaning)
         return direct, inverse, inside
 
@@ -368,7 +371,7 @@ class Formula:
             out = out - g * g * ring.derivative(poly, inverse)
         return out
 
-    def derivative(self, symbol: str | sympy.Symbol) -> "Formula":
+    def derivative(self, symbol) -> "Formula":
         """Exact derivative with respect to a user symbol, as a new formula.
 
         Uses d/dx = d/d[x] - [1/x]**2 d/d[1/x] on the ring generators.
@@ -378,7 +381,7 @@ class Formula:
         AnalysisError
             If the symbol also occurs inside a non-polynomial sub-expression.
         """
-        name = symbol.name if isinstance(symbol, sympy.Symbol) else str(symbol)
+        name = getattr(symbol, "name", None) or str(symbol)
         num, den = self.numerator, self.denominator
         numerator = self.polynomial_derivative(num, name) * den - num * self.polynomial_derivative(den, name)
         return self.with_polynomials(
@@ -413,7 +416,7 @@ def _common_factor(ring: Ring, num, den):
     """
     if ring.backend != "flint":
         try:
-            from .polys import make_ring
+            from .linear.polys import make_ring
 
             fast = make_ring(ring.names, "flint")
         except ImportError:  # pragma: no cover - flint is a dependency
@@ -447,11 +450,17 @@ def _normalise(ring: Ring, num, den):
     return num, den
 
 
-def _terms_to_expr(terms) -> sympy.Expr:
+def _terms_to_expr(terms):
+    import sympy
+
     parts = []
+    converted: dict[Any, Any] = {}
     for powers, coeff in terms:
         factors = [sympy.Rational(coeff.numerator, coeff.denominator)]
-        factors += [key**e for key, e in powers.items()]
+        for key, e in powers.items():
+            if key not in converted:
+                converted[key] = key.to_sympy()
+            factors.append(converted[key] ** e)
         parts.append(sympy.Mul(*factors))
     return sympy.Add(*parts)
 
@@ -463,7 +472,7 @@ def _terms_to_text(terms) -> str:
 
     def name(key: Any) -> str:
         if key not in names:
-            names[key] = key.name if isinstance(key, sympy.Symbol) else f"({key})"
+            names[key] = key.name if isinstance(key, Symbol) else f"({key})"
         return names[key]
 
     out = []
@@ -484,10 +493,12 @@ def _terms_to_latex(terms, names: Mapping[str, str]) -> str:
 
     def name(key: Any) -> str:
         if key not in cache:
-            if isinstance(key, sympy.Symbol):
-                cache[key] = names.get(key.name, sympy.latex(key))
+            import sympy
+
+            if isinstance(key, Symbol):
+                cache[key] = names.get(key.name) or sympy.latex(key.to_sympy())
             else:
-                cache[key] = rf"\left({sympy.latex(key)}\right)"
+                cache[key] = rf"\left({sympy.latex(key.to_sympy())}\right)"
         return cache[key]
 
     parts = []

@@ -253,7 +253,7 @@ class ExpectedFormula:
 
         from .expressions import parse_expression
 
-        return sympy.together(parse_expression(self.expr))
+        return sympy.together(parse_expression(self.expr).to_sympy())
 
     @property
     def small_signal(self) -> bool:
@@ -261,8 +261,8 @@ class ExpectedFormula:
         return self.quantity != "dc_output"
 
     def small_signal_options(self):
-        """The :class:`~symbias.network.SmallSignalOptions` this formula assumes."""
-        from .network import SmallSignalOptions
+        """The :class:`~symbias.linear.network.SmallSignalOptions` this formula assumes."""
+        from .devices.options import SmallSignalOptions
 
         return SmallSignalOptions(**dict(self.options))
 
@@ -316,8 +316,8 @@ class Topology:
         return _netlist_circuit(self.netlist, self.path, self.netlist_line)
 
     def small_signal_options(self):
-        """The topology's default :class:`~symbias.network.SmallSignalOptions`."""
-        from .network import SmallSignalOptions
+        """The topology's default :class:`~symbias.linear.network.SmallSignalOptions`."""
+        from .devices.options import SmallSignalOptions
 
         return SmallSignalOptions(**dict(self.options))
 

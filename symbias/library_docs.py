@@ -27,36 +27,9 @@ import sys
 from pathlib import Path
 from typing import Iterable
 
-__all__ = ["render_markdown", "latex_symbol", "formula_latex", "main"]
+from .symbols import latex_name
 
-_GREEK = {"beta": r"\beta", "rpi": r"r_{\pi}", "pi": r"\pi", "lambda": r"\lambda", "gamma": r"\gamma"}
-_PARAMETERS = ("gmb", "gm", "rpi", "ro", "rmu", "rb", "re", "beta")
-
-
-def latex_symbol(name: str) -> str:
-    """LaTeX of a symbol name under the naming convention (``gm_Q1`` -> ``g_{m,Q1}``).
-
-    Examples
-    --------
-    >>> latex_symbol("gm_Q1"), latex_symbol("rpi"), latex_symbol("beta_Q3"), latex_symbol("RE")
-    ('g_{m,Q1}', 'r_{\\\\pi}', '\\\\beta_{Q3}', 'R_{E}')
-    """
-    base, _, device = name.partition("_")
-    if base in _PARAMETERS:
-        if base == "beta":
-            head = r"\beta"
-            return f"{head}_{{{device}}}" if device else head
-        if base == "rpi":
-            return f"r_{{\\pi,{device}}}" if device else r"r_{\pi}"
-        letter, sub = base[0], base[1:]
-        return f"{letter}_{{{sub},{device}}}" if device else f"{letter}_{{{sub}}}"
-    if name in _GREEK:
-        return _GREEK[name]
-    match = re.fullmatch(r"([A-Za-z])([A-Za-z0-9]+)", name)
-    if match and not device:
-        return f"{match.group(1)}_{{{match.group(2)}}}"
-    return name.replace("_", r"\_")
-
+__all__ = ["render_markdown", "formula_latex", "main"]
 
 def formula_latex(text: str) -> str:
     """LaTeX of a library formula string.
@@ -70,8 +43,8 @@ def formula_latex(text: str) -> str:
 
     from .expressions import parse_expression
 
-    expr = parse_expression(text)
-    return sympy.latex(expr, symbol_names={s: latex_symbol(s.name) for s in expr.free_symbols})
+    expr = parse_expression(text).to_sympy()
+    return sympy.latex(expr, symbol_names={s: latex_name(s.name) for s in expr.free_symbols})
 
 
 def _devices(topology) -> str:

@@ -17,7 +17,7 @@ Examples
 --------
 >>> from symbias.netlist import parse_netlist
 >>> from symbias.analyses import current_gain
->>> from symbias.network import SmallSignalOptions
+>>> from symbias.devices.options import SmallSignalOptions
 >>> deck = '''simple NPN mirror
 ... Iref 0 in 1
 ... Q1 in in 0 QN

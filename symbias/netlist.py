@@ -6,7 +6,7 @@ Line numbers are kept on every element so later errors can point at them.
 Grammar in short: the first line is the title; ``*`` starts a comment line,
 ``;`` an end-of-line comment; a line starting with ``+`` continues the
 previous one; element lines start with their SPICE letter (R C L V I G E F H
-Q M X); dot cards ``.model``, ``.param``, ``.subckt``/``.ends``, ``.match``
+D Q M X; the kinds of :mod:`symbias.elements`); dot cards ``.model``, ``.param``, ``.subckt``/``.ends``, ``.match``
 (a symbias extension declaring matched devices) and ``.end``; simulator
 control cards (``.op``, ``.dc``, ``.tran``, ``.options`` ...) are ignored.
 
@@ -27,13 +27,13 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from fractions import Fraction
 from pathlib import Path
 
-import sympy
-
-from .circuit import GROUND, MODEL_KINDS, TERMINALS, Circuit, Element, Model, validate
+from .circuit import GROUND, Circuit, Element, Model, validate
+from .elements import KINDS
 from .errors import CircuitError, NetlistError, SymbiasError
-from .expressions import parse_expression, parse_value
+from .expressions import ZERO, Expr, Number, Symbol, parse_value, try_parse_number
 
 __all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
 
@@ -118,11 +118,11 @@ def _node(name: str) -> str:
     return GROUND if low in ("0", "gnd") else low
 
 
-def _value(text: str, names, line: int) -> sympy.Expr:
+def _value(text: str, names, line: int) -> Expr:
     try:
         return parse_value(text, names)
-    except NetlistError as err:
-        raise NetlistError(err.reason, line=line) from None
+    except SymbiasError as err:  # syntax (NetlistError) or a size limit (LimitError)
+        raise type(err)(err.reason, line=line) from None
 
 
 @dataclass
@@ -183,7 +183,7 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
     subckts: dict[str, _Subckt] = {}
     current: _Subckt | None = None
     models: dict[str, Model] = {}
-    params: dict[str, sympy.Expr] = {}
+    params: dict[str, Expr] = {}
     groups: dict[str, tuple[str, ...]] = {}
     for line in lines:
         low = line.text.lower()
@@ -260,7 +260,7 @@ def _add_model(line: Line, models: dict[str, Model]) -> None:
     models[name.lower()] = Model(name=name, type=mtype, params=values, line=line.number)
 
 
-def _add_params(line: Line, params: dict[str, sympy.Expr]) -> None:
+def _add_params(line: Line, params: dict[str, Expr]) -> None:
     tokens = _tokens(line.text)[1:]
     positional, named = _split_params(tokens, line.number)
     if positional or not named:
@@ -278,7 +278,7 @@ def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) 
     letter = name[0].upper()
     if letter == "X":
         return _instance(line, tokens, params, models, subckts, prefix, mapping, depth)
-    if letter not in TERMINALS:
+    if letter not in KINDS:
         raise NetlistError(f"unknown element letter {letter!r} in {name!r}", line=line.number)
     element = _element(line, tokens, params, models)
     if prefix or mapping:
@@ -345,7 +345,7 @@ def _element(line: Line, tokens: list[str], params, models) -> Element:
             raise NetlistError(f"{name}: expected '{name} node+ node- [DC] value'", line=n)
         nodes = (_node(positional[0]), _node(positional[1]))
         rest = positional[2:]
-        value = sympy.Integer(0)
+        value = ZERO
         i = 0
         while i < len(rest):
             word = rest[i].lower()
@@ -391,6 +391,18 @@ def _element(line: Line, tokens: list[str], params, models) -> Element:
             inst["area"] = _value(extra[0], params, n)
         return Element(name, kind, tuple(_node(p) for p in positional[:index]), None, model=positional[index],
                        params=inst, line=n)
+    if kind == "D":
+        # D anode cathode model [area]
+        if len(positional) < 3 or positional[2].lower() not in models:
+            if len(positional) >= 3:
+                raise NetlistError(f"{name}: undefined model {positional[2]!r}", line=n)
+            raise NetlistError(f"{name}: expected '{name} anode cathode model [area]'", line=n)
+        if len(positional) > 4:
+            raise NetlistError(f"{name}: unexpected {positional[4]!r} after the area", line=n)
+        if len(positional) == 4:
+            inst["area"] = _value(positional[3], params, n)
+        return Element(name, kind, (_node(positional[0]), _node(positional[1])), None, model=positional[2],
+                       params=inst, line=n)
     if kind == "M":
         if len(positional) != 5:
             if len(positional) >= 5 and positional[4].lower() not in models:
@@ -404,19 +416,20 @@ def _element(line: Line, tokens: list[str], params, models) -> Element:
 
 
 def _looks_numeric(text: str) -> bool:
-    from .expressions import try_parse_number
-
     return try_parse_number(text) is not None
 
 
-def _format_value(value: sympy.Expr) -> str:
+def _format_value(value: Expr) -> str:
     if value is None:
         return ""
-    if isinstance(value, sympy.Symbol):
+    if isinstance(value, Symbol):
         return value.name
-    if value.is_Number:
-        number = float(value)
-        return repr(int(number)) if number == int(number) and abs(number) < 1e15 else f"{number:.12g}"
+    if isinstance(value, Number):
+        if value.value.denominator == 1:
+            return str(value.value.numerator)
+        shown = repr(float(value))
+        if Fraction(shown) == value.value:
+            return shown
     return "{" + str(value).replace("**", "^") + "}"
 
 
@@ -434,7 +447,7 @@ def format_netlist(circuit: Circuit) -> str:
         parts = [element.name, *element.nodes]
         if element.kind in ("F", "H"):
             parts.append(element.control or "")
-        if element.kind in ("Q", "M"):
+        if KINDS[element.kind].is_device:
             parts.append(element.model or "")
             parts += [f"{k}={_format_value(v)}" for k, v in element.params.items()]
         else:

@@ -23,10 +23,11 @@ VA*beta/(2*IC)
 
 from __future__ import annotations
 
-import re
 from typing import Mapping
 
 import sympy
+
+from .symbols import latex_name, owners
 
 __all__ = [
     "Parallel",
@@ -34,7 +35,6 @@ __all__ = [
     "expand_parallel",
     "readable_text",
     "readable_latex",
-    "latex_name",
     "bias_substitutions",
     "in_bias_terms",
 ]
@@ -164,29 +164,6 @@ def readable_text(expr: sympy.Expr, values: Mapping[str, float] | None = None, *
     return sympy.sstr(expr, order="none" if values is not None else None).replace("**", "^")
 
 
-_LATEX_BASES = {"gm": "g_{m", "gmb": "g_{mb", "ro": "r_{o", "rpi": r"r_{\pi", "beta": r"\beta_{", "re": "r_{e",
-                "rb": "r_{b", "rmu": r"r_{\mu"}
-_DEVICE_SYMBOL = re.compile(r"^(gm|gmb|ro|rpi|beta|re|rb|rmu)(?:_(\w+))?$")
-
-
-def latex_name(name: str) -> str:
-    """LaTeX of a symbol name: ``gm`` -> ``g_{m}``, ``ro_Q2`` -> ``r_{o,Q2}``, ``beta`` -> ``\\beta``.
-
-    Examples
-    --------
-    >>> latex_name("gm_Q1"), latex_name("beta"), latex_name("beta_Q3"), latex_name("RE")
-    ('g_{m,Q1}', '\\\\beta', '\\\\beta_{Q3}', 'RE')
-    """
-    match = _DEVICE_SYMBOL.match(name)
-    if not match:
-        return sympy.latex(sympy.Symbol(name))
-    base, device = match.groups()
-    head = _LATEX_BASES[base]
-    if base == "beta":
-        return r"\beta" if not device else rf"\beta_{{{device}}}"
-    return head + ("," + device if device else "") + "}"
-
-
 def readable_latex(expr: sympy.Expr, values: Mapping[str, float] | None = None, *, parallel: bool = True,
                    collect: bool = True) -> str:
     """LaTeX with ``a \\parallel b``, common factors out and device symbols typeset (``g_{m} r_{o}``).
@@ -216,12 +193,7 @@ def bias_substitutions(names, kind: str | None = None) -> dict[sympy.Symbol, sym
     >>> bias_substitutions(["gm_M1", "ro_M1"])
     {gm_M1: 2*ID_M1/Vov_M1, ro_M1: 1/(ID_M1*lambda_M1)}
     """
-    groups: dict[str, set[str]] = {}
-    for name in names:
-        name = name.name if isinstance(name, sympy.Symbol) else str(name)
-        match = _DEVICE_SYMBOL.match(name)
-        if match:
-            groups.setdefault(match.group(2) or "", set()).add(match.group(1))
+    groups = {owner: set(params) for owner, params in owners(getattr(n, "name", None) or str(n) for n in names).items()}
     out: dict[sympy.Symbol, sympy.Expr] = {}
     for device, parameters in sorted(groups.items()):
         def sym(base: str) -> sympy.Symbol:

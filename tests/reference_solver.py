@@ -3,8 +3,8 @@
 It re-derives, from the documented conventions alone, what the engine
 computes: it expands a parsed :class:`~symbias.circuit.Circuit` into its own
 hybrid-pi branch list, builds a numeric modified-nodal matrix with numpy and
-solves it.  It deliberately imports nothing from ``symbias.network``,
-``symbias.mna`` or ``symbias.numeric``, so an agreement between the two is
+solves it.  It deliberately imports nothing from ``symbias.linear.network``,
+``symbias.linear.mna`` or ``symbias.linear.numeric``, so an agreement between the two is
 evidence and not a tautology.
 
 Conventions followed (as documented in ``symbias/network.py``,
@@ -79,6 +79,13 @@ class Branch:
     control: str | None = None
 
 
+def _sympy_value(value: Any) -> sympy.Expr:
+    """A netlist value as sympy reads its text (every identifier a plain symbol)."""
+    from sympy.parsing.sympy_parser import parse_expr
+
+    return parse_expr(str(value), local_dict={n: sympy.Symbol(n) for n in value.names})
+
+
 def _option(options: Any, name: str, default: Any) -> Any:
     """Read an option from any object with attributes (or None for defaults)."""
     return default if options is None else getattr(options, name, default)
@@ -116,7 +123,7 @@ def _device_parameters(element, group: str | None, single: bool, beta: bool):
     if group is not None:
         for key in ("m", "area"):
             if key in element.params:
-                m = m * element.params[key]
+                m = m * _sympy_value(element.params[key])
 
     def conductance(parameter: str) -> sympy.Expr:
         return name(parameter) * m
@@ -137,7 +144,7 @@ def _bjt(element, params, options) -> list[Branch]:
     tag = element.name
     bi, ei = b, e
     out: list[Branch] = []
-    if _option(options, "extras", False):
+    if _option(options, "extras", False) or _option(options, "parasitics", ()):
         bi, ei = f"{tag}:b'", f"{tag}:e'"
         out += [
             Branch("R", f"{tag}.rb", (b, bi), resistance("rb")),
@@ -191,7 +198,7 @@ def reference_branches(circuit, options: Any = None) -> tuple[Branch, ...]:
     for element in circuit.elements:
         kind = element.kind
         if kind in ("R", "C", "L"):
-            value = element.value
+            value = _sympy_value(element.value)
             if symbolic and value.is_Number:
                 value = sympy.Symbol(element.name)
             if kind == "C" and value == 0:
@@ -200,12 +207,12 @@ def reference_branches(circuit, options: Any = None) -> tuple[Branch, ...]:
         elif kind in ("V", "I"):
             out.append(Branch(kind, element.name, element.nodes, sympy.Integer(0)))
         elif kind in ("G", "E"):
-            out.append(Branch(kind, element.name, element.nodes, element.value))
+            out.append(Branch(kind, element.name, element.nodes, _sympy_value(element.value)))
         elif kind in ("F", "H"):
             control = next((e.name for e in circuit.elements if e.name.lower() == element.control.lower()), None)
             if control is None:  # e.g. the controlling source was removed to open a port
                 raise ReferenceSingular(f"{element.name}: controlling source {element.control} is absent")
-            out.append(Branch(kind, element.name, element.nodes, element.value, control))
+            out.append(Branch(kind, element.name, element.nodes, _sympy_value(element.value), control))
         elif kind in ("Q", "M"):
             params = _device_parameters(element, groups.get(element.name.lower()), single, beta)
             out += _bjt(element, params, options) if kind == "Q" else _mos(element, params, options)

@@ -26,7 +26,7 @@ from symbias.approx import (
 )
 from symbias.errors import SymbiasError
 from symbias.netlist import read_netlist
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 
 ROOT = Path(__file__).resolve().parents[1]
 DECKS = ROOT / "tests" / "decks" / "approx"

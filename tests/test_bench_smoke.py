@@ -31,7 +31,7 @@ sys.path.insert(0, str(ROOT / "bench"))
 import derive  # noqa: E402
 
 from symbias.analyses import output_resistance, transimpedance  # noqa: E402
-from symbias.circuit import CircuitWarning  # noqa: E402
+from symbias.errors import CircuitWarning  # noqa: E402
 from symbias.netlist import parse_netlist  # noqa: E402
 
 

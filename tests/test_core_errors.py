@@ -23,7 +23,7 @@ from pathlib import Path
 import pytest
 
 from symbias.analyses import output_resistance
-from symbias.circuit import CircuitWarning
+from symbias.errors import CircuitWarning
 from symbias.cli import main
 from symbias.errors import AnalysisError, CircuitError, NetlistError, SymbiasError
 from symbias.netlist import parse_netlist

@@ -197,7 +197,7 @@ def test_parallel_rc_transimpedance() -> None:
     s, r, c = sympy.symbols("s RF CF")
     circuit = parse_netlist("Tern-2 bias filter: R || C\nI1 0 a 1u\nRF a 0 RF\nCF a 0 CF\n")
     formula = transimpedance(circuit, "a", "I1")
-    assert s in formula.symbols
+    assert "s" in {x.name for x in formula.symbols}
     assert same(formula.expr, r / (1 + s * r * c))
 
 
@@ -214,7 +214,7 @@ def test_mirror_output_impedance_with_device_capacitances() -> None:
     s = sympy.Symbol("s")
     circuit = parse_netlist(SIMPLE_NPN)
     formula = output_resistance(circuit, "Vout", SmallSignalOptions(capacitances=True))
-    assert s in formula.symbols
+    assert "s" in {x.name for x in formula.symbols}
     assert same(formula.expr.subs(s, 0), sympy.Symbol("ro_Q2"))
     assert sympy.limit(formula.expr, s, sympy.oo) == 0  # the capacitances short the output at high frequency
-    assert s not in output_resistance(circuit, "Vout").symbols
+    assert "s" not in {x.name for x in output_resistance(circuit, "Vout").symbols}

@@ -19,8 +19,9 @@ from symbias.analyses import output_resistance
 from symbias.approx import approximate
 from symbias.cli import main
 from symbias.netlist import read_netlist
-from symbias.network import SmallSignalOptions
-from symbias.readable import expand_parallel, latex_name, readable_latex, readable_text
+from symbias.devices.options import SmallSignalOptions
+from symbias.readable import expand_parallel, readable_latex, readable_text
+from symbias.symbols import latex_name
 from symbias.render.latex import approximation_latex, assumption_latex
 from symbias.render.markdown import CAUTION, formula_markdown
 from symbias.render.python import python_source

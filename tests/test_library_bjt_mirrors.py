@@ -19,6 +19,7 @@ from library_checks import (
     check_transfer_in_spice,
     circuit_of,
     engine_symbols,
+    published_expr,
     evaluate,
     formula_cases,
     library,
@@ -27,8 +28,7 @@ from library_checks import (
     with_models,
 )
 from symbias.analyses import current_gain
-from symbias.expressions import parse_expression
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 
 CASES = formula_cases(lambda t: t.technology == "bjt" and t.family == "current-mirror")
 
@@ -74,7 +74,7 @@ def test_classic_gain_from_the_small_signal_model(identifier, published, source)
     topology = library()[identifier]
     options = SmallSignalOptions(ro=False, match=True, beta=True)
     formula = current_gain(circuit_of(identifier), topology.roles["output"], topology.roles["input"], options)
-    assert sympy.cancel(formula.expr - engine_symbols(parse_expression(published), formula)) == 0, source
+    assert sympy.cancel(formula.expr - engine_symbols(published_expr(published), formula)) == 0, source
 
 
 @pytest.mark.parametrize("identifier,published,source", CLASSIC_GAINS)
@@ -89,7 +89,7 @@ def test_classic_gain_from_the_dc_model_in_ngspice(identifier, published, source
     ratio = output_current(op, output) / values["IREF"]
     (model,) = {circuit.model_of(d).name.lower() for d in circuit.devices}
     point = {"beta": float(circuit.models[model].params["BF"]), **values}
-    assert ratio == pytest.approx(float(evaluate(parse_expression(published), point)), rel=1e-6), source
+    assert ratio == pytest.approx(float(evaluate(published_expr(published), point)), rel=1e-6), source
 
 
 def test_simple_mirror_early_effect_error_in_ngspice():

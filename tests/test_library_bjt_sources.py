@@ -31,7 +31,7 @@ from library_checks import (
     with_models,
 )
 from symbias.analyses import output_resistance
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 
 CASES = formula_cases(lambda t: t.technology == "bjt" and t.family == "current-source")
 

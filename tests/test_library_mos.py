@@ -25,6 +25,7 @@ from library_checks import (
     check_transfer_in_spice,
     circuit_of,
     engine_symbols,
+    published_expr,
     formula_cases,
     library,
     output_current,
@@ -32,8 +33,7 @@ from library_checks import (
     with_models,
 )
 from symbias.analyses import output_resistance
-from symbias.expressions import parse_expression
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 
 CASES = formula_cases(lambda t: t.technology == "mos" and t.family != "reference")
 
@@ -68,7 +68,7 @@ PUBLISHED_ROUT = [
 @pytest.mark.parametrize("identifier,published,source", PUBLISHED_ROUT)
 def test_published_output_resistance(identifier, published, source):
     formula = output_resistance(circuit_of(identifier), "Vout", SmallSignalOptions())
-    assert sympy.cancel(formula.expr - engine_symbols(parse_expression(published), formula)) == 0, source
+    assert sympy.cancel(formula.expr - engine_symbols(published_expr(published), formula)) == 0, source
 
 
 def test_regulated_cascode_leading_order():
@@ -101,7 +101,7 @@ def test_mirror_ratio_in_ngspice(identifier, published):
     circuit = with_models(circuit_of(identifier), LAMBDA=None)
     values = topology.defaults()
     op = spice_op(circuit, values, ["i(vout)"])
-    expected = float(parse_expression(published).subs({sympy.Symbol(k): v for k, v in values.items()}))
+    expected = float(published_expr(published).subs({sympy.Symbol(k): v for k, v in values.items()}))
     assert output_current(op, "Vout") / values["IREF"] == pytest.approx(expected, rel=1e-6)
 
 

@@ -11,7 +11,7 @@ import sympy
 from symbias.analyses import current_gain
 from symbias.mirror_error import ideal_transfer, limit, transfer_error
 from symbias.netlist import parse_netlist, read_netlist
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 beta, gm, ro = sympy.symbols("beta gm ro")

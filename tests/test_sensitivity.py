@@ -16,7 +16,7 @@ import sympy
 from symbias.analyses import output_resistance
 from symbias.errors import AnalysisError
 from symbias.netlist import parse_netlist, read_netlist
-from symbias.network import SmallSignalOptions
+from symbias.devices.options import SmallSignalOptions
 from symbias.sensitivity import (
     group_sensitivity,
     parameter_symbols,

@@ -106,7 +106,7 @@ def load_target(name: str, library_dirs: list[str] | None = None):
 
 def options_from_args(args: argparse.Namespace):
     """SmallSignalOptions from the model flags."""
-    from ..network import SmallSignalOptions
+    from ..devices.options import SmallSignalOptions
 
     match = args.match
     if isinstance(match, str):
@@ -177,7 +177,8 @@ class Result:
 
 
 def _extras(args: argparse.Namespace, formula) -> Result:
-    from ..approx import AssumptionError, approximate, magnitude_model
+    from ..approx import approximate, magnitude_model
+    from ..errors import AssumptionError
 
     if not 0 < args.tolerance < 1:
         raise AssumptionError(f"tolerance must be between 0 and 1, got {args.tolerance:g}", path="--tolerance")
@@ -301,10 +302,10 @@ def bias_point(args: argparse.Namespace, circuit, topology, options) -> dict[str
     """Symbol values at the DC operating point: device gm, rpi, ro, gmb plus netlist numbers.
 
     Matched symbols take the values of the first device of their group,
-    normalised by its multiplier (see :func:`symbias.network.bias_values`).
+    normalised by its multiplier (see :func:`symbias.linear.network.bias_values`).
     """
     from ..dc.operating_point import operating_point
-    from ..network import bias_values
+    from ..linear.network import bias_values
     from .dc_common import design_inputs
 
     values, process = design_inputs(args, topology)

@@ -201,9 +201,9 @@ class OperatingPoint:
         >>> round(op.symbol_values()["gm_Q1"] * 1e3, 1)
         38.3
         """
-        from ..network import device_symbol_name
+        from ..symbols import device_symbol
 
-        return {device_symbol_name(key, name, None, False): value
+        return {device_symbol(key, name): value
                 for name, dev in self.devices.items() for key, value in dev.small_signal.items()}
 
     @property

@@ -23,12 +23,12 @@ Examples
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping
 
 import numpy as np
-import sympy
 
 from ..circuit import GROUND, Circuit, Element
 from ..devices.bjt import GMIN, BjtAtTemperature, BjtModel, stack_bjts
@@ -154,29 +154,32 @@ def element_number(element: Element, expr, values: Mapping[str, float] | None, p
 
     Examples
     --------
-    >>> import sympy
-    >>> e = Element("R1", "R", ("a", "0"), sympy.Symbol("RE"), line=3)
+    >>> from symbias.expressions import Symbol
+    >>> e = Element("R1", "R", ("a", "0"), Symbol("RE"), line=3)
     >>> element_number(e, e.value, {"RE": 1e3}, "x.cir", "value")
     1000.0
     """
     if isinstance(expr, (int, float)):
         return float(expr)
-    free = sorted(str(s) for s in expr.free_symbols)
-    if free:
-        lookup = {k.lower(): v for k, v in (values or {}).items()}
-        missing = [s for s in free if s.lower() not in lookup]
-        if missing:
-            raise CircuitError(
-                f"{element.name}: {what} {expr} has no number for {', '.join(missing)} "
-                f"(give it in the netlist or pass values for it)",
-                path=path,
-                line=element.line,
-            )
-        expr = expr.subs({sympy.Symbol(s): lookup[s.lower()] for s in free})
+    free = sorted(expr.names)
+    lookup = {k.lower(): v for k, v in (values or {}).items()}
+    missing = [s for s in free if s.lower() not in lookup]
+    if missing:
+        raise CircuitError(
+            f"{element.name}: {what} {expr} has no number for {', '.join(missing)} "
+            f"(give it in the netlist or pass values for it)",
+            path=path,
+            line=element.line,
+        )
     try:
-        return float(expr)
-    except (TypeError, ValueError):
-        raise CircuitError(f"{element.name}: {what} {expr} is not a real number", path=path, line=element.line) from None
+        number = expr.evaluate({s: float(lookup[s.lower()]) for s in free})
+        number = float(number)
+    except (TypeError, ValueError, OverflowError, ZeroDivisionError):
+        number = math.nan
+    if not math.isfinite(number):
+        raise CircuitError(f"{element.name}: {what} {expr} is not a finite real number", path=path,
+                           line=element.line)
+    return number
 
 
 def dc_paths(circuit: Circuit) -> None:

@@ -57,7 +57,7 @@ def formula_record(formula: Formula, approximation: Any = None, sensitivities: A
         "numerator": numerator,
         "denominator": denominator[:-1],
         "symbols": [s.name for s in formula.symbols],
-        "meanings": dict(formula.meanings),
+        "meanings": {name: str(meaning) for name, meaning in formula.meanings.items()},
         "assumptions": list(formula.assumptions),
         "terms": [num_terms, den_terms],
     }

@@ -9,7 +9,7 @@ Examples
 >>> from symbias.analyses import output_resistance
 >>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"), "a")
 >>> formula_latex(f)
-'R_{\\\\mathrm{out}} = \\\\frac{RA RB}{RA + RB}'
+'R_{\\\\mathrm{out}} = \\\\frac{R_{A} R_{B}}{R_{A} + R_{B}}'
 """
 
 from __future__ import annotations
@@ -17,6 +17,7 @@ from __future__ import annotations
 import sympy
 
 from ..formula import Formula
+from ..symbols import latex_name
 
 __all__ = ["formula_latex", "quantity_symbol", "approximation_latex", "assumption_latex"]
 
@@ -36,8 +37,6 @@ def quantity_symbol(formula: Formula) -> str:
 
 def formula_latex(formula: Formula, expression: sympy.Expr | None = None) -> str:
     """``<quantity symbol> = <LaTeX of the expression>`` (the exact form by default)."""
-    from ..readable import latex_name
-
     if expression is None:
         return f"{quantity_symbol(formula)} = {formula.latex({s.name: latex_name(s.name) for s in formula.symbols})}"
     names = {s: latex_name(s.name) for s in expression.free_symbols if isinstance(s, sympy.Symbol)}
@@ -49,10 +48,9 @@ _RELATIONS = ((">>", r"\gg"), ("<<", r"\ll"), ("~", r"\sim"))
 
 def _side_latex(text: str) -> str:
     from ..expressions import parse_expression, try_parse_number
-    from ..readable import latex_name
 
     number = try_parse_number(text)
-    expr = sympy.Integer(1) * number if number is not None else parse_expression(text)
+    expr = (number if number is not None else parse_expression(text)).to_sympy()
     return sympy.latex(expr, symbol_names={s: latex_name(s.name) for s in expr.free_symbols})
 
 
@@ -71,8 +69,6 @@ def assumption_latex(assumption) -> str:
     >>> print(assumption_latex(parse_assumption("beta in [30, 1000]")))
     30 \le \beta \le 1000
     """
-    from ..readable import latex_name
-
     text = assumption.text
     for op, command in _RELATIONS:
         if text.count(op) == 1 and assumption.origin in ("user", "default"):
@@ -95,7 +91,7 @@ def approximation_latex(approximation, *, with_conditions: bool = True) -> str:
     >>> from symbias.approx import approximate
     >>> f = output_resistance(parse_netlist("t\nI1 0 a 1\nR1 a 0 RA\nR2 a 0 RB\n"), "a")
     >>> print(approximation_latex(approximate(f, ["RA >> RB"])))
-    R_{\mathrm{out}} \approx RB \qquad \left(RA \gg RB;\ \text{worst error } 3.3\,\%\right)
+    R_{\mathrm{out}} \approx R_{B} \qquad \left(R_{A} \gg R_{B};\ \text{worst error } 3.3\,\%\right)
     """
     from ..readable import readable_latex
 

@@ -56,9 +56,9 @@ def _function(name: str, expr: sympy.Expr, symbols: list[str], meanings: dict[st
     lines = [f"def {name}({', '.join(arguments)}):", f'    """{summary} [{unit}].', "", "    Parameters",
              "    ----------"]
     for symbol, argument in zip(symbols, arguments):
-        meaning = meanings.get(symbol, "")
-        unit_of = meaning[meaning.rfind("[") + 1 : -1] if meaning.endswith("]") else "see netlist"
-        text = meaning[: meaning.rfind("[")].strip() if meaning.endswith("]") else (meaning or symbol)
+        meaning = meanings.get(symbol)
+        unit_of = meaning.unit if meaning is not None else "see netlist"
+        text = meaning.description if meaning is not None else symbol
         lines += [f"    {argument} : float or numpy array", f"        {text} [{unit_of}]"]
     lines.append('    """')
     if arguments:

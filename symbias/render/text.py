@@ -86,7 +86,7 @@ def formula_panel(formula: Formula, extra_rows: list[tuple[str, str]] | None = N
         table.add_column("symbol")
         table.add_column("meaning")
         for name in sorted(formula.meanings):
-            table.add_row(Text(name), Text(formula.meanings[name]))
+            table.add_row(Text(name), Text(str(formula.meanings[name])))
         parts.append(table)
     if formula.assumptions:
         parts.append(Text("assumptions: " + "; ".join(formula.assumptions), style="italic"))

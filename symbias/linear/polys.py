@@ -1,6 +1,6 @@
 """Multivariate polynomial rings behind one small interface.
 
-Lowest level of the symbolic side.  The cofactor solver (:mod:`symbias.mna`)
+Lowest level of the symbolic side.  The cofactor solver (:mod:`symbias.linear.mna`)
 and :class:`~symbias.formula.Formula` only use the operations of
 :class:`Ring`; two backends implement them:
 

@@ -1,6 +1,6 @@
 """Modified nodal analysis in a polynomial ring, solved by cofactors.
 
-Fourth step of the symbolic side (:class:`~symbias.network.LinearNetwork` ->
+Fourth step of the symbolic side (:class:`~symbias.linear.network.LinearNetwork` ->
 polynomial system -> numerator and denominator polynomials).
 
 Every quantity symbias derives is a ratio ``c^T A^-1 b`` of the MNA system
@@ -15,7 +15,7 @@ step it expands along the row or column with the fewest non-zeros among those
 still open, and remembers each minor by the bit masks of its open rows and
 columns, so minors shared between the determinant and the cofactors are
 computed once.  All arithmetic is exact and fraction-free in a polynomial
-ring (:mod:`symbias.polys`); no rational function is ever simplified.
+ring (:mod:`symbias.linear.polys`); no rational function is ever simplified.
 
 Values that are not polynomials in the user's symbols are encoded with extra
 ring generators: ``1/x`` for a symbol ``x`` in a denominator (``1/ro_Q1``) and
@@ -25,7 +25,7 @@ one generator per other non-polynomial sub-expression (``1/(R1+R2)``).
 Examples
 --------
 >>> from symbias.netlist import parse_netlist
->>> from symbias.network import expand
+>>> from symbias.linear.network import expand
 >>> net = expand(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"))
 >>> problem = LinearProblem(net, rhs=(("v:a", 1),), observe=(("v:a", 1),))
 >>> result = solve(problem, backend="sympy")
@@ -39,11 +39,11 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Iterable, Mapping
 
-import sympy
-
-from .circuit import GROUND
-from .errors import AnalysisError
-from .network import LinearNetwork, Primitive
+from ..circuit import GROUND
+from ..elements import BRANCH_PRIMITIVES, Primitive
+from ..errors import AnalysisError
+from ..expressions import ONE, Expr, Symbol
+from .network import LinearNetwork
 from .polys import Ring, make_ring
 
 __all__ = [
@@ -58,7 +58,7 @@ __all__ = [
 ]
 
 #: Primitive kinds that add a branch-current unknown.
-BRANCH_KINDS = ("V", "Z", "E", "H")
+BRANCH_KINDS = BRANCH_PRIMITIVES
 
 
 @dataclass(frozen=True)
@@ -70,7 +70,7 @@ class RingVariable:
     name : str
         Generator name: ``x`` for a symbol, ``1/x`` for its reciprocal,
         ``@k`` for another sub-expression.
-    meaning : sympy.Expr
+    meaning : Expr
         What the generator stands for, in user symbols.
     symbol : str or None
         The user symbol for ``x`` and ``1/x`` generators.
@@ -79,7 +79,7 @@ class RingVariable:
     """
 
     name: str
-    meaning: sympy.Expr
+    meaning: Expr
     symbol: str | None
     power: int
 
@@ -113,7 +113,7 @@ def unknowns(network: LinearNetwork) -> tuple[str, ...]:
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
-    >>> from symbias.network import expand
+    >>> from symbias.linear.network import expand
     >>> unknowns(expand(parse_netlist("t\\nV1 a 0 1\\nR1 a 0 1k\\n")))
     ('v:a', 'i:V1')
     """
@@ -125,40 +125,20 @@ def unknowns(network: LinearNetwork) -> tuple[str, ...]:
 # -- encoding values as ring polynomials ---------------------------------------------
 
 
-def _factor_powers(factor: sympy.Expr) -> tuple[sympy.Expr, int]:
-    """Split a product factor into (base, integer exponent)."""
-    if factor.is_Pow and factor.exp.is_Integer:
-        return factor.base, int(factor.exp)
-    return factor, 1
-
-
-def _monomials(expr: sympy.Expr) -> list[tuple[Fraction, list[tuple[sympy.Expr, int]]]]:
-    """Expand ``expr`` into (rational coefficient, [(base, exponent), ...]) terms."""
-    out = []
-    for term in sympy.Add.make_args(sympy.expand(expr)):
-        coeff, rest = term.as_coeff_Mul()
-        if not coeff.is_Rational:
-            coeff = sympy.Rational(Fraction(float(coeff)).limit_denominator(10**15))
-        # irrational constants such as sqrt(2) stay factors: they become generators of
-        # their own, so the result remains exact
-        factors = [] if rest == 1 else [_factor_powers(f) for f in sympy.Mul.make_args(rest)]
-        out.append((Fraction(int(coeff.p), int(coeff.q)), factors))
-    return out
-
-
-def encode(values: Iterable[sympy.Expr]) -> tuple[RingVariable, ...]:
+def encode(values: Iterable[Expr]) -> tuple[RingVariable, ...]:
     """Ring generators needed to write every value as a polynomial.
 
     Examples
     --------
-    >>> [v.name for v in encode([1/sympy.Symbol("ro"), sympy.Symbol("gm")])]
+    >>> from symbias.expressions import Symbol
+    >>> [v.name for v in encode([1 / Symbol("ro"), Symbol("gm")])]
     ['gm', '1/ro']
     """
     found: dict[str, RingVariable] = {}
-    atoms: dict[sympy.Expr, str] = {}
+    atoms: dict[Expr, str] = {}
     for value in values:
-        for _, factors in _monomials(value):
-            for base, exponent in factors:
+        for monomial in value.terms():
+            for base, exponent in monomial:
                 variable = _variable_for(base, exponent, atoms)
                 found.setdefault(variable.name, variable)
     symbol_vars = sorted((v for v in found.values() if v.power), key=lambda v: (v.symbol, v.power))
@@ -166,29 +146,34 @@ def encode(values: Iterable[sympy.Expr]) -> tuple[RingVariable, ...]:
     return tuple(symbol_vars + atom_vars)
 
 
-def _variable_for(base: sympy.Expr, exponent: int, atoms: dict[sympy.Expr, str]) -> RingVariable:
-    if isinstance(base, sympy.Symbol):
+def _atom(base: Expr, exponent: int) -> Expr:
+    """The sub-expression a generator stands for: ``base`` or, for a negative power, ``1/base``."""
+    return base if exponent > 0 else ONE / base
+
+
+def _variable_for(base: Expr, exponent: int, atoms: dict[Expr, str]) -> RingVariable:
+    if isinstance(base, Symbol):
         if exponent > 0:
             return RingVariable(base.name, base, base.name, 1)
-        return RingVariable(f"1/{base.name}", 1 / base, base.name, -1)
-    atom = base if exponent > 0 else 1 / base
+        return RingVariable(f"1/{base.name}", ONE / base, base.name, -1)
+    atom = _atom(base, exponent)
     if atom not in atoms:
         atoms[atom] = f"@{len(atoms)}"
     return RingVariable(atoms[atom], atom, None, 0)
 
 
-def _to_poly(value: sympy.Expr, ring: Ring, variables: tuple[RingVariable, ...]):
+def _to_poly(value: Expr, ring: Ring, variables: tuple[RingVariable, ...]):
     index = {v.name: i for i, v in enumerate(variables)}
     atoms = {v.meaning: v.name for v in variables if not v.power}
     size = len(variables)
     terms = []
-    for coeff, factors in _monomials(value):
+    for monomial, coeff in value.terms().items():
         exps = [0] * size
-        for base, exponent in factors:
-            if isinstance(base, sympy.Symbol):
+        for base, exponent in monomial:
+            if isinstance(base, Symbol):
                 name = base.name if exponent > 0 else f"1/{base.name}"
             else:
-                name = atoms[base if exponent > 0 else 1 / base]
+                name = atoms[_atom(base, exponent)]
             exps[index[name]] += abs(exponent)
         terms.append((tuple(exps), coeff))
     merged: dict[tuple[int, ...], Fraction] = {}
@@ -200,19 +185,19 @@ def _to_poly(value: sympy.Expr, ring: Ring, variables: tuple[RingVariable, ...])
 # -- stamping ------------------------------------------------------------------------
 
 
-def stamp(network: LinearNetwork) -> dict[tuple[int, int], list[tuple[sympy.Expr, int]]]:
+def stamp(network: LinearNetwork) -> dict[tuple[int, int], list[tuple[Expr, int]]]:
     """MNA entries as lists of (value, sign) contributions, keyed by (row, column).
 
     The stamp of each primitive kind is one function in :data:`STAMPS`.
     """
     labels = unknowns(network)
     index = {label: i for i, label in enumerate(labels)}
-    entries: dict[tuple[int, int], list[tuple[sympy.Expr, int]]] = {}
+    entries: dict[tuple[int, int], list[tuple[Expr, int]]] = {}
 
     def node(name: str) -> int | None:
         return None if name == GROUND else index[f"v:{name}"]
 
-    def add(row: int | None, col: int | None, value: sympy.Expr, sign: int) -> None:
+    def add(row: int | None, col: int | None, value: Expr, sign: int) -> None:
         if row is not None and col is not None:
             entries.setdefault((row, col), []).append((value, sign))
 
@@ -240,7 +225,7 @@ def _stamp_vccs(p: Primitive, node, index, add) -> None:
 def _branch_incidence(p: Primitive, node, index, add) -> int:
     k = index[f"i:{p.name}"]
     a, b = node(p.nodes[0]), node(p.nodes[1])
-    one = sympy.Integer(1)
+    one = ONE
     add(a, k, one, 1)
     add(b, k, one, -1)
     add(k, a, one, 1)
@@ -306,7 +291,7 @@ class CofactorSolver:
 
     Examples
     --------
-    >>> from symbias.polys import make_ring
+    >>> from symbias.linear.polys import make_ring
     >>> ring = make_ring(("a", "b"), "sympy")
     >>> a, b = ring.gens
     >>> solver = CofactorSolver(ring, 2, {(0, 0): a, (0, 1): b, (1, 0): b, (1, 1): a})
@@ -426,7 +411,7 @@ def build_system(network: LinearNetwork, backend: str | None = None):
     values = [value for contributions in raw.values() for value, _ in contributions]
     variables = encode(values)
     ring = make_ring(tuple(v.name for v in variables), backend)
-    cache: dict[sympy.Expr, Any] = {}
+    cache: dict[Expr, Any] = {}
     entries = {}
     for key, contributions in raw.items():
         total = ring.zero

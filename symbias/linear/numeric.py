@@ -1,14 +1,14 @@
 """Numeric evaluation of symbolic values and batched numeric solves.
 
-The numeric twin of :mod:`symbias.mna`: the same :class:`~symbias.mna.LinearProblem`
+The numeric twin of :mod:`symbias.linear.mna`: the same :class:`~symbias.linear.mna.LinearProblem`
 solved with numbers by a batched ``numpy.linalg.solve`` over arrays of
 parameter values.  :class:`~symbias.formula.Formula` uses it for results too
 large to evaluate term by term, and the tests use the agreement of both routes.
 
 Examples
 --------
->>> import sympy
->>> evaluate_expression(1/sympy.Symbol("ro") + 2, {"ro": 4.0})
+>>> from symbias.expressions import Symbol
+>>> evaluate_expression(1 / Symbol("ro") + 2, {"ro": 4.0})
 2.25
 """
 
@@ -18,80 +18,50 @@ from __future__ import annotations
 from typing import Any, Mapping
 
 import numpy as np
-import sympy
 
-from .errors import AnalysisError
+from ..errors import AnalysisError, NetlistError
+from ..expressions import Expr
 
 __all__ = ["evaluate_expression", "solve_problem", "normalise_values"]
 
-_FUNCTIONS = {
-    sympy.exp: np.exp,
-    sympy.log: np.log,
-    sympy.Abs: np.abs,
-    sympy.sqrt: np.sqrt,
-    sympy.sin: np.sin,
-    sympy.cos: np.cos,
-}
-
-
 def normalise_values(values: Mapping[Any, Any]) -> dict[str, Any]:
-    """Key a value mapping by symbol name; arrays become numpy arrays.
+    """Key a value mapping by symbol name; lists and tuples become numpy arrays.
+
+    Keys may be names or symbols (anything with a ``name``).
 
     Examples
     --------
-    >>> normalise_values({sympy.Symbol("gm"): 2})
+    >>> from symbias.expressions import Symbol
+    >>> normalise_values({Symbol("gm"): 2})
     {'gm': 2}
     """
     out = {}
     for key, value in values.items():
-        name = key.name if isinstance(key, sympy.Symbol) else str(key)
+        name = getattr(key, "name", None) or str(key)
         out[name] = np.asarray(value) if isinstance(value, (list, tuple)) else value
     return out
 
 
-def evaluate_expression(expr: sympy.Expr, values: Mapping[str, Any]) -> Any:
-    """Evaluate a small sympy expression over numbers or numpy arrays.
+def evaluate_expression(expr: Expr, values: Mapping[str, Any]) -> Any:
+    """Evaluate a small expression over numbers or numpy arrays.
 
-    A tree walk over Add, Mul, Pow, symbols, numbers and a few functions;
-    used for element values and sub-expressions, never for big results.
+    Used for element values and sub-expressions, never for big results.
 
     Raises
     ------
     AnalysisError
         If a symbol has no value.
+
+    Examples
+    --------
+    >>> from symbias.expressions import Symbol
+    >>> evaluate_expression(1 / Symbol("ro") + 2, {"ro": 4.0})
+    2.25
     """
-    if expr.is_Symbol:
-        try:
-            return values[expr.name]
-        except KeyError:
-            raise AnalysisError(f"no value given for symbol {expr.name!r}") from None
-    if expr.is_Number:
-        return float(expr) if expr.is_real else complex(expr)
-    if expr is sympy.I:
-        return 1j
-    if expr.is_Add:
-        total = 0
-        for arg in expr.args:
-            total = total + evaluate_expression(arg, values)
-        return total
-    if expr.is_Mul:
-        total = 1
-        for arg in expr.args:
-            total = total * evaluate_expression(arg, values)
-        return total
-    if expr.is_Pow:
-        base = evaluate_expression(expr.base, values)
-        exponent = expr.exp
-        if exponent.is_Integer:
-            n = int(exponent)
-            return base**n if n >= 0 else 1.0 / base ** (-n)
-        return np.power(base, evaluate_expression(exponent, values))
-    function = _FUNCTIONS.get(expr.func)
-    if function is not None:
-        return function(evaluate_expression(expr.args[0], values))
-    if expr.is_number:
-        return complex(expr) if not expr.is_real else float(expr)
-    raise AnalysisError(f"cannot evaluate {expr} numerically")
+    try:
+        return expr.evaluate(values)
+    except NetlistError as err:
+        raise AnalysisError(err.reason) from None
 
 
 def solve_problem(problem, values: Mapping[str, Any]) -> np.ndarray:
@@ -106,8 +76,8 @@ def solve_problem(problem, values: Mapping[str, Any]) -> np.ndarray:
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
-    >>> from symbias.network import expand
-    >>> from symbias.mna import LinearProblem
+    >>> from symbias.linear.network import expand
+    >>> from symbias.linear.mna import LinearProblem
     >>> net = expand(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"))
     >>> p = LinearProblem(net, rhs=(("v:a", 1),), observe=(("v:a", 1),))
     >>> float(solve_problem(p, {"RA": 2.0, "RB": 2.0}))
@@ -119,7 +89,7 @@ def solve_problem(problem, values: Mapping[str, Any]) -> np.ndarray:
     labels = unknowns(problem.network)
     index = {label: i for i, label in enumerate(labels)}
     raw = stamp(problem.network)
-    cache: dict[sympy.Expr, Any] = {}
+    cache: dict[Expr, Any] = {}
     for contributions in raw.values():
         for value, _ in contributions:
             if value not in cache:

@@ -1,0 +1,158 @@
+"""Expanded linear network: the circuit with every element replaced by its small-signal primitives.
+
+First step of the linear side (:class:`~symbias.circuit.Circuit` ->
+:class:`LinearNetwork`).  Each element is expanded by the ``small_signal``
+hook of its kind in :mod:`symbias.elements` (linear elements in
+:mod:`symbias.devices.linear`, transistors and diodes in
+:mod:`symbias.devices.small_signal`).  Independent sources stay as
+zero-valued sources (a V source is a short, an I source is open) so that an
+analysis can drive the one it names.  Primitive kinds are listed in
+:data:`symbias.elements.PRIMITIVE_KINDS`.
+
+Examples
+--------
+>>> from symbias.netlist import parse_netlist
+>>> c = parse_netlist("t\\nI1 0 a 1m\\nR1 a 0 RL\\n")
+>>> [(p.kind, str(p.value)) for p in expand(c).primitives]
+[('I', '1'), ('Y', '1/RL')]
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Mapping
+
+from ..circuit import Circuit
+from ..devices.options import ExpansionContext, SmallSignalOptions, device_symbols
+from ..elements import KINDS, Primitive
+from ..errors import CircuitError
+from ..expressions import Symbol
+from ..symbols import Meaning, device_symbol
+
+__all__ = ["LinearNetwork", "expand", "bias_values"]
+
+
+@dataclass(frozen=True)
+class LinearNetwork:
+    """A linear(ised) network ready for stamping.
+
+    Parameters
+    ----------
+    primitives : tuple of Primitive
+    nodes : tuple of str
+        Node names, ground ``"0"`` first.
+    meanings : mapping of str to Meaning
+        For every symbol: what it stands for and its unit.
+    path : str, optional
+        Source netlist file.
+    """
+
+    primitives: tuple[Primitive, ...]
+    nodes: tuple[str, ...]
+    meanings: Mapping[str, Meaning] = field(default_factory=dict)
+    path: str | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "meanings", MappingProxyType(dict(self.meanings)))
+
+    def __reduce__(self):
+        return (LinearNetwork, (self.primitives, self.nodes, dict(self.meanings), self.path))
+
+    def primitive(self, name: str) -> Primitive:
+        """The primitive called ``name`` (case-insensitive)."""
+        for p in self.primitives:
+            if p.name.lower() == name.lower():
+                return p
+        raise CircuitError(f"no source or element named {name!r} in the network", path=self.path)
+
+    @property
+    def symbols(self) -> tuple[Symbol, ...]:
+        """Free symbols of all primitive values, sorted by name."""
+        found: set[Symbol] = set()
+        for p in self.primitives:
+            found |= p.value.free_symbols
+        return tuple(sorted(found, key=lambda s: s.name))
+
+
+def expand(circuit: Circuit, options: SmallSignalOptions | None = None) -> LinearNetwork:
+    """Replace every element by its linear small-signal primitives.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    options : SmallSignalOptions, optional
+
+    Returns
+    -------
+    LinearNetwork
+        Independent sources are kept as primitives of kind V and I; an analysis
+        decides which one it drives (all others are zero).
+
+    Raises
+    ------
+    CircuitError
+        For a zero resistor, or device names that would share symbols.
+    """
+    options = options or SmallSignalOptions()
+    context = ExpansionContext(circuit, options, device_symbols(circuit, options))
+    primitives: list[Primitive] = []
+    meanings: dict[str, Meaning] = {}
+    for element in circuit.elements:
+        parts, element_meanings = KINDS[element.kind].hook("small_signal")(element, context)
+        primitives.extend(parts)
+        for key, meaning in element_meanings.items():
+            meanings.setdefault(key, meaning)
+    nodes = list(circuit.nodes)
+    for p in primitives:
+        for node in p.nodes:
+            if node not in nodes:
+                nodes.append(node)
+    return LinearNetwork(tuple(primitives), tuple(nodes), meanings, circuit.path)
+
+
+def bias_values(
+    circuit: Circuit,
+    per_device: Mapping[str, Mapping[str, float]],
+    options: SmallSignalOptions | None = None,
+) -> dict[str, float]:
+    """Map per-device small-signal values to the symbol names of an expansion.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    per_device : mapping
+        ``{device name: {"gm": ..., "rpi": ..., "ro": ..., "gmb": ...}}`` in SI
+        units, e.g. from an operating point.
+    options : SmallSignalOptions, optional
+        The same options used for the expansion.  For matched devices the
+        shared symbol takes the value of the group's first device normalised by
+        its multiplier (``gm/m``, ``ro*m``), which is what the shared symbol
+        means; with ``beta`` the value of ``beta`` is ``gm*rpi``.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nQ1 a a 0 QN\\n.model QN npn\\n")
+    >>> bias_values(c, {"Q1": {"gm": 0.04, "rpi": 2500.0, "ro": 1e5}})
+    {'gm_Q1': 0.04, 'rpi_Q1': 2500.0, 'ro_Q1': 100000.0}
+    """
+    from ..symbols import PARAMETERS
+
+    options = options or SmallSignalOptions()
+    symbols = device_symbols(circuit, options)
+    values: dict[str, float] = {}
+    lookup = {k.lower(): v for k, v in per_device.items()}
+    for device in circuit.devices:
+        data = lookup.get(device.key)
+        if data is None:
+            continue
+        info = symbols[device.key]
+        m = float(info.multiplier)
+        for parameter, number in data.items():
+            scaling = PARAMETERS[parameter].scaling if parameter in PARAMETERS else "none"
+            scaled = number * m if scaling == "down" else number / m if scaling == "up" else number
+            values.setdefault(info.name(parameter), float(scaled))
+        if options.beta and "gm" in data and "rpi" in data:
+            values.setdefault(device_symbol("beta", info.owner), float(data["gm"] * data["rpi"]))
+    return values
