@@ -67,8 +67,8 @@ def _library_cases() -> Iterator[tuple[str, str, str, Callable[[], Any], list[st
 def _deck_cases() -> Iterator[tuple[str, str, str, Callable[[], Any], list[str]]]:
     """The same for the shipped examples and the approximation test decks, matched and unmatched."""
     from symbias.analyses import QUANTITIES
-    from symbias.commands.derive import default_quantities
     from symbias.errors import SymbiasError
+    from symbias.pipeline import Target, default_quantities
     from symbias.netlist import read_netlist
     from symbias.devices.options import SmallSignalOptions
 
@@ -77,7 +77,7 @@ def _deck_cases() -> Iterator[tuple[str, str, str, Callable[[], Any], list[str]]
     for deck in decks:
         circuit = read_netlist(deck)
         try:
-            wanted = default_quantities(circuit, None)
+            wanted = [(q.kind, q.arguments) for q in default_quantities(Target(circuit))]
         except SymbiasError:
             continue
         for label, options in models:

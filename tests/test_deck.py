@@ -12,9 +12,7 @@ import subprocess
 import pytest
 
 from symbias.cli import main
-from symbias.commands.dc_common import design_defaults
-from symbias.commands.derive import load_target
-from symbias.dc.operating_point import operating_point
+from symbias.pipeline import design_inputs, load_target, operating_point_of
 
 pytestmark = pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
 
@@ -35,8 +33,8 @@ def test_deck_operating_point_matches_ngspice(tmp_path, target):
     assert main(["deck", target, "-o", str(deck)]) == 0
     assert deck.read_text().splitlines()[1].startswith("* written by symbias")
     spice = _ngspice_values(deck)
-    circuit, topology = load_target(target)
-    point = operating_point(circuit, values=design_defaults(topology))
+    loaded = load_target(target)
+    point = operating_point_of(loaded, design_inputs(loaded))
     checked = 0
     for node, volts in point.node_voltages.items():
         if node != "0":

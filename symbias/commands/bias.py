@@ -1,12 +1,13 @@
-"""``symbias bias``: the DC operating point of a netlist.
+"""``symbias bias``: the DC operating point of a netlist or library topology.
 
-Wires: netlist (+ process) -> :func:`symbias.dc.operating_point.operating_point`
--> a rich table, or one JSON object with ``node_voltages`` {node: V},
-``branch_currents`` {voltage source: A, SPICE sign: positive into the +
-terminal}, ``element_currents`` and ``devices`` {name: {type, region,
-currents, voltages, small_signal, limits}}.  Infinite values (``ro`` without
-an Early voltage) are written as ``null``.  With ``--all`` every DC solution
-found from several starts is listed, and a zero-current one is flagged.
+Wires: arguments -> :func:`symbias.pipeline.operating_point_of` (or
+:func:`~symbias.pipeline.states_of` with ``--all``) -> :mod:`symbias.render.dc`
+or :mod:`symbias.render.json`.  The JSON object holds ``node_voltages``
+{node: V}, ``branch_currents`` {voltage source: A, SPICE sign: positive into
+the + terminal}, ``element_currents`` and ``devices`` {name: {type, region,
+currents, voltages, small_signal, limits}}; infinite values (``ro`` without an
+Early voltage) are ``null``.  With ``--all`` every DC solution found from
+several starts is listed, and a zero-current one is flagged.
 
 Examples
 --------
@@ -17,14 +18,11 @@ Examples
 from __future__ import annotations
 
 import argparse
-import json
-import sys
 
-from ..render.text import engineering
-from .dc_common import DESIGN_AID, add_dc_arguments, json_safe, load_inputs
-from .dc_common import console as dc_console
+from ..render.console import CAUTION
+from .common import add_dc_arguments
 
-__all__ = ["register", "run", "operating_point_table"]
+__all__ = ["register", "run"]
 
 
 def register(subparsers) -> None:
@@ -33,7 +31,7 @@ def register(subparsers) -> None:
         "bias",
         help="DC operating point: node voltages, currents, device regions, gm/rpi/ro",
         description="Solve the DC operating point of a bias circuit.",
-        epilog=DESIGN_AID,
+        epilog=CAUTION,
     )
     add_dc_arguments(p)
     p.add_argument("--all", action="store_true",
@@ -41,77 +39,31 @@ def register(subparsers) -> None:
     p.set_defaults(func=run)
 
 
-def operating_point_table(op):
-    """Rich renderables for an operating point: nodes, sources, devices."""
-    from rich.table import Table
-
-    nodes = Table(title="Node voltages", title_justify="left")
-    nodes.add_column("node")
-    nodes.add_column("V", justify="right")
-    for node, value in op.node_voltages.items():
-        if node != "0":
-            nodes.add_row(node, f"{value:.6f}")
-    sources = Table(title="Branch currents (into the + terminal)", title_justify="left")
-    sources.add_column("element")
-    sources.add_column("I", justify="right")
-    for name, value in {**op.branch_currents, **op.element_currents}.items():
-        sources.add_row(name, engineering(value, "A"))
-    devices = Table(title=f"Devices at {op.temperature:g} degC", title_justify="left")
-    for column in ("device", "type", "region", "IC/ID", "VBE/VGS", "VCE/VDS", "gm", "rpi/gmb", "ro", "VCEsat/Vov"):
-        devices.add_column(column, justify="left" if column in ("device", "type", "region") else "right",
-                           no_wrap=True)
-    for name, dev in op.devices.items():
-        bjt = "c" in dev.currents
-        v = dev.voltages
-        s = dev.small_signal
-        devices.add_row(
-            name, dev.type, dev.region,
-            engineering(dev.output_current, "A"),
-            f"{(v['vbe'] if bjt else v['vgs']):.4f}",
-            f"{(v['vce'] if bjt else v['vds']):.3f}",
-            engineering(s["gm"], "S"),
-            engineering(s["rpi"], "\u03a9") if bjt else engineering(s["gmb"], "S"),
-            engineering(s["ro"], "\u03a9"),
-            f"{(dev.limits['vcesat'] if bjt else dev.limits['vov']):.3f}",
-        )
-    return nodes, sources, devices
-
-
 def run(args: argparse.Namespace) -> int:
     """Solve and print the operating point (or every solution with ``--all``)."""
-    from ..dc.operating_point import operating_point
+    from ..pipeline import operating_point_of, states_of
+    from .common import inputs_of, print_json, print_renderables, target_of
 
-    circuit, process, values, guess = load_inputs(args)
+    target = target_of(args)
+    inputs = inputs_of(args, target)
     if args.all:
-        return _run_all(args, circuit, process, values)
-    op = operating_point(circuit, process, args.temp, values, guess=guess or None)
-    if args.json:
-        print(json.dumps(json_safe({"circuit": circuit.title, "source": circuit.path, **op.to_dict()}), indent=2))
+        found = states_of(target, inputs)
+        if args.json:
+            from ..render.json import states_record
+
+            print_json(states_record(target, found))
+        else:
+            from ..render.dc import states_renderables
+
+            print_renderables(states_renderables(target, found, inputs.temperature))
         return 0
-    console = dc_console()
-    console.print(f"[bold]{circuit.title}[/bold]  ({circuit.path}, {op.temperature:g} degC, {op.method}, "
-                  f"{op.iterations} iterations)")
-    for table in operating_point_table(op):
-        console.print(table)
-    console.print(f"[dim]{DESIGN_AID}[/dim]")
-    return 0
-
-
-def _run_all(args: argparse.Namespace, circuit, process, values) -> int:
-    from ..dc.solutions import find_solutions
-
-    found = find_solutions(circuit, process, args.temp, values)
+    op = operating_point_of(target, inputs)
     if args.json:
-        print(json.dumps(json_safe({"circuit": circuit.title, "source": circuit.path, **found.to_dict()}), indent=2))
-        return 0
-    console = dc_console()
-    console.print(f"[bold]{circuit.title}[/bold]: {len(found.states)} DC solution(s) at {args.temp:g} degC")
-    for i, state in enumerate(found.states, start=1):
-        flag = "  [bold red]zero-current state: needs a start-up circuit[/bold red]" if state.zero_current else ""
-        console.print(f"\n[bold]Solution {i}[/bold]: supply current {state.supply_current:.4g} A{flag}")
-        for table in operating_point_table(state.point):
-            console.print(table)
-    if found.needs_startup:
-        console.print("[bold red]A zero-current state exists: the circuit needs a start-up circuit.[/bold red]")
-    console.print(f"[dim]{DESIGN_AID}[/dim]")
+        from ..render.json import operating_point_record
+
+        print_json(operating_point_record(target, op))
+    else:
+        from ..render.dc import operating_point_renderables
+
+        print_renderables(operating_point_renderables(target, op))
     return 0

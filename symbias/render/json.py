@@ -25,11 +25,14 @@ Examples
 from __future__ import annotations
 
 import json
+import math
+from dataclasses import asdict
 from typing import Any
 
 from ..formula import Formula
 
-__all__ = ["formula_record", "dumps"]
+__all__ = ["formula_record", "dumps", "json_safe", "derivation_record", "operating_point_record", "states_record",
+           "sweep_record", "listing_record", "topology_record"]
 
 
 def formula_record(formula: Formula, approximation: Any = None, sensitivities: Any = None,
@@ -81,6 +84,114 @@ def formula_record(formula: Formula, approximation: Any = None, sensitivities: A
     return record
 
 
+def json_safe(data: Any) -> Any:
+    """Replace infinite or NaN floats by None (JSON has no infinity), recursively.
+
+    Examples
+    --------
+    >>> json_safe({"ro": float("inf"), "gm": [1.0, float("nan")]})
+    {'ro': None, 'gm': [1.0, None]}
+    """
+    if isinstance(data, float):
+        return data if math.isfinite(data) else None
+    if isinstance(data, dict):
+        return {k: json_safe(v) for k, v in data.items()}
+    if isinstance(data, (list, tuple)):
+        return [json_safe(v) for v in data]
+    return data
+
+
 def dumps(data: Any) -> str:
-    """Serialise with stable key order and two-space indentation."""
-    return json.dumps(data, indent=2, sort_keys=False, default=str)
+    """Serialise with stable key order and two-space indentation; infinities and NaN become null.
+
+    Examples
+    --------
+    >>> print(dumps({"a": float("inf")}))
+    {
+      "a": null
+    }
+    """
+    return json.dumps(json_safe(data), indent=2, sort_keys=False, default=str)
+
+
+def _transfer_error_record(error) -> dict[str, Any]:
+    return {
+        "ideal": str(error.ideal.expr),
+        "exact": error.exact.exact_string(),
+        "leading": error.leading.text,
+        "leading_error": float(error.leading.error),
+        "causes": {c.name: {"leading": c.leading.text, "leading_error": float(c.leading.error)} for c in error.causes},
+    }
+
+
+def derivation_record(derivation) -> dict[str, Any]:
+    """The JSON object of ``symbias derive``: a header and one formula record per quantity.
+
+    With one quantity the record's fields sit beside the header; with several they are listed
+    under ``results``.  ``transfer_error`` and ``at_bias`` appear when asked for.
+    """
+    records = []
+    for result in derivation.results:
+        record = formula_record(result.formula, result.approximation, result.sensitivities, result.sensitivity_point)
+        if result.transfer_error is not None:
+            record["transfer_error"] = _transfer_error_record(result.transfer_error)
+        if derivation.bias is not None:
+            record["at_bias"] = result.value
+        records.append(record)
+    header = {"circuit": derivation.target.title, "source": derivation.target.where}
+    if len(records) == 1:
+        return {**header, **records[0]}
+    return {**header, "results": records}
+
+
+def operating_point_record(target, op) -> dict[str, Any]:
+    """The JSON object of ``symbias bias``: the circuit and the operating point's fields."""
+    return {"circuit": target.title, "source": target.circuit.path, **op.to_dict()}
+
+
+def states_record(target, found) -> dict[str, Any]:
+    """The JSON object of ``symbias bias --all``: every DC state and whether start-up is needed."""
+    return {"circuit": target.title, "source": target.circuit.path, **found.to_dict()}
+
+
+def sweep_record(target, result) -> dict[str, Any]:
+    """The JSON object of ``symbias sweep``: output, kind, metrics and the swept data."""
+    return {"circuit": target.title, "source": target.circuit.path, "output": result.output, "kind": result.kind,
+            "metrics": result.metrics.to_dict(), **result.sweep.to_dict((result.output,))}
+
+
+def listing_record(row) -> dict[str, Any]:
+    """One topology of ``symbias list --json``."""
+    t = row.topology
+    return {
+        "id": t.id,
+        "title": t.title,
+        "family": t.family,
+        "technology": t.technology,
+        "devices": row.devices,
+        "headroom": dict(t.headroom),
+        "rout": row.rout,
+        "roles": {k: list(v) if isinstance(v, tuple) else v for k, v in t.roles.items()},
+        "path": t.path,
+    }
+
+
+def topology_record(description) -> dict[str, Any]:
+    """The JSON object of ``symbias show``: the library fields and ``derived`` (one record per quantity).
+
+    Each derived record holds the formula fields, ``role`` (``rout`` or ``transfer``), ``options`` and
+    ``leading_order`` (``expr``, ``error``, ``assumptions``; null when not shorter than the exact form).
+    """
+    topology = description.topology
+    record = topology.to_dict()
+    record["derived"] = []
+    if description.derivation is None:
+        return record
+    options = asdict(topology.small_signal_options())
+    options = {k: list(v) if isinstance(v, tuple) else v for k, v in options.items()}
+    for index, (result, leading) in enumerate(zip(description.derivation.results, description.leading)):
+        lead = None if leading is None else {"expr": str(leading.expr), "error": float(leading.error),
+                                             "assumptions": list(leading.statements)}
+        record["derived"].append({"role": "rout" if index == 0 else "transfer", **formula_record(result.formula),
+                                  "options": options, "leading_order": lead})
+    return record

@@ -19,7 +19,7 @@ import sympy
 from ..formula import Formula
 from ..symbols import latex_name
 
-__all__ = ["formula_latex", "quantity_symbol", "approximation_latex", "assumption_latex"]
+__all__ = ["formula_latex", "quantity_symbol", "approximation_latex", "assumption_latex", "derivation_latex"]
 
 _QUANTITY_SYMBOLS = {
     "output_resistance": r"R_{\mathrm{out}}",
@@ -102,3 +102,22 @@ def approximation_latex(approximation, *, with_conditions: bool = True) -> str:
     error = rf"\text{{worst error }} {100 * approximation.error:.2g}\,\%"
     condition = (", ".join(shown) + r";\ " if shown else "") + error
     return rf"{text} \qquad \left({condition}\right)"
+
+
+def derivation_latex(derivation) -> str:
+    """LaTeX lines of every derived quantity: the exact form, its approximation, its transfer error.
+
+    Examples
+    --------
+    >>> from symbias.pipeline import load_target, derive
+    >>> derivation_latex(derive(load_target("examples/simple_mirror.cir"))).splitlines()[0]
+    'R_{\\\\mathrm{out}} = r_{o,Q2}'
+    """
+    lines = []
+    for result in derivation.results:
+        lines.append(formula_latex(result.formula))
+        if result.approximation is not None:
+            lines.append(approximation_latex(result.approximation))
+        if result.transfer_error is not None:
+            lines.append(approximation_latex(result.transfer_error.leading))
+    return "\n".join(lines)

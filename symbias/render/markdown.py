@@ -15,11 +15,12 @@ from typing import Any
 
 from ..formula import Formula
 
-__all__ = ["formula_markdown", "CAUTION"]
+from .console import CAUTION as _CAUTION
+
+__all__ = ["formula_markdown", "derivation_markdown", "CAUTION"]
 
 #: Closing note of every exported block.
-CAUTION = ("*Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
-           "circuits follow local codes and licensed practice.*")
+CAUTION = f"*{_CAUTION}*"
 
 
 def formula_markdown(formula: Formula, approximation: Any = None, sensitivities: Any = None,
@@ -73,3 +74,21 @@ def _latex(expr) -> str:
     from ..readable import readable_latex
 
     return readable_latex(expr, parallel=False)
+
+
+def derivation_markdown(derivation) -> str:
+    """A Markdown section per derived quantity (and per transfer error) under the circuit's title.
+
+    Examples
+    --------
+    >>> from symbias.pipeline import load_target, derive
+    >>> print(derivation_markdown(derive(load_target("examples/simple_mirror.cir"))).splitlines()[0])
+    ## Kestrel KT-40 sensor front end: 20 uA tail sink, simple NPN mirror
+    """
+    sections = [f"## {derivation.target.title}\n"]
+    for result in derivation.results:
+        sections.append(formula_markdown(result.formula, result.approximation, result.sensitivities))
+        error = result.transfer_error
+        if error is not None:
+            sections.append(formula_markdown(error.exact, error.leading, title=error.exact.label))
+    return "\n".join(sections)

@@ -25,7 +25,7 @@ import sympy
 
 from ..formula import Formula
 
-__all__ = ["python_source", "function_name"]
+__all__ = ["python_source", "function_name", "derivation_python"]
 
 
 def function_name(formula: Formula) -> str:
@@ -89,3 +89,8 @@ def python_source(formula: Formula, approximation: Any = None, name: str | None 
         lines += [""] + _function(f"{name}_approx", approximation.expr, used, meanings, note.rstrip("; "),
                                   formula.unit)
     return "\n".join(lines).rstrip() + "\n"
+
+
+def derivation_python(derivation) -> str:
+    """One Python module text with a numpy function per derived quantity (and its approximation)."""
+    return "\n\n".join(python_source(r.formula, r.approximation) for r in derivation.results)

@@ -1,4 +1,9 @@
-"""Terminal rendering with rich: a panel per derived formula.
+"""Terminal rendering of derivations with rich: a panel per derived quantity.
+
+Renderer (derivation -> rich renderables).  The exact form is written
+straight from the formula's terms, so a plain derivation loads no
+computer-algebra system; sympy is used only for the readable forms of an
+approximation or a sensitivity.
 
 Examples
 --------
@@ -13,48 +18,40 @@ from __future__ import annotations
 
 from typing import Any
 
-import sympy
-
-from ..formula import Formula
+from .console import CAUTION, engineering, ratio_text, render_to_string, terminal_console
 
 __all__ = [
-    "engineering",
-    "terminal_console","formula_panel", "readable", "render_to_string", "approximation_rows", "sensitivity_table",
-           "DISPLAY_TERMS"]
+    "formula_panel",
+    "approximation_rows",
+    "sensitivity_table",
+    "derivation_renderables",
+    "polynomial_texts",
+    "value_text",
+    "DISPLAY_TERMS",
+    "render_to_string",
+    "terminal_console",
+]
 
 #: Results with more terms than this are summarised, not printed in full.
 DISPLAY_TERMS = 400
 
 
-def engineering(value: float, unit: str = "") -> str:
-    """A number in engineering notation with an SI prefix, e.g. ``1.224M`` + unit.
+def polynomial_texts(formula) -> tuple[str, str]:
+    """Numerator and denominator as one-line text (``^`` for powers), written from the terms.
 
     Examples
     --------
-    >>> engineering(1.2244e6, "ohm"), engineering(4.94e-5, "A"), engineering(0.0)
-    ('1.224Mohm', '49.4uA', '0')
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.analyses import output_resistance
+    >>> polynomial_texts(output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 {RA^2}\\n"), "a"))
+    ('RA^2', '1 + RA')
     """
-    if value != value:  # nan
-        return "-"
-    if value in (float("inf"), float("-inf")):
-        return "inf"
-    if value == 0:
-        return f"0{unit}"
-    prefixes = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
-                (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
-    for scale, prefix in prefixes:
-        if abs(value) >= scale:
-            return f"{value / scale:.4g}{prefix}{unit}"
-    return f"{value:.3g}{unit}"
+    exact = formula.exact_string()
+    numerator, denominator = exact[1:-1].split(")/(", 1)
+    return numerator.replace("**", "^"), denominator.replace("**", "^")
 
 
-def readable(expr: sympy.Expr) -> str:
-    """A compact one-line form of an expression (``**`` as ``^``, numbers in engineering style)."""
-    text = sympy.sstr(expr)
-    return text.replace("**", "^")
-
-
-def formula_panel(formula: Formula, extra_rows: list[tuple[str, str]] | None = None, title: str | None = None) -> Any:
+def formula_panel(formula, extra_rows: list[tuple[str, str]] | None = None, title: str | None = None) -> Any:
     """A rich Panel with the formula, its symbols and assumptions."""
     from rich.console import Group
     from rich.panel import Panel
@@ -64,11 +61,10 @@ def formula_panel(formula: Formula, extra_rows: list[tuple[str, str]] | None = N
     parts: list[Any] = []
     num_terms, den_terms = formula.nterms
     if num_terms + den_terms <= DISPLAY_TERMS:
-        numerator = readable(formula.numerator_expr)
-        denominator = readable(formula.denominator_expr)
+        numerator, denominator = polynomial_texts(formula)
         body = Text()
         body.append(f"{formula.label} =\n", style="bold")
-        if formula.denominator_expr == 1:
+        if denominator == "1":
             body.append(f"  {numerator}")
         else:
             body.append(f"  ({numerator})\n")
@@ -139,32 +135,39 @@ def sensitivity_table(rows: Any, title: str = "normalised sensitivities S = (x/F
     return table
 
 
-def terminal_console(stream=None) -> Any:
-    """A rich console on stdout, 120 columns wide when the output is not a terminal.
-
-    Piped output (a file, a pager, a test) would otherwise wrap tables at 80 columns.
-    """
-    import sys
-
-    from rich.console import Console
-
-    stream = stream or sys.stdout
-    out = Console(file=stream)
-    return out if out.is_terminal else Console(file=stream, width=120)
-
-
-def render_to_string(renderable: Any, width: int = 100) -> str:
-    """Render a rich object to plain text (for tests and files)."""
-    from rich.console import Console
-
-    console = Console(width=width, record=True, color_system=None, file=_Null())
-    console.print(renderable)
-    return console.export_text()
+def value_text(result, temperature: float) -> str:
+    """The value of a derived quantity at the operating point, with its unit and temperature."""
+    if result.missing:
+        return f"needs {', '.join(result.missing)} (not set by the operating point; use --set)"
+    if result.value is None:
+        shown = "infinite"
+    elif result.formula.unit in ("A/A", "V/V"):
+        shown = ratio_text(result.value)  # a ratio reads better without an SI prefix
+    else:
+        shown = engineering(result.value)
+    return f"{shown} {result.formula.unit} at {temperature:g} degC"
 
 
-class _Null:
-    def write(self, text: str) -> int:
-        return len(text)
+def _error_rows(error) -> list[tuple[str, str]]:
+    rows = [("error 1 - gain/ideal", f"~ {error.leading.text}  (worst error "
+                                     f"{100 * error.leading.error:.3g} %; ideal {error.ideal.expr})")]
+    rows += [(f"  from {cause.name}", f"~ {cause.leading.text}") for cause in error.causes]
+    return rows
 
-    def flush(self) -> None:
-        pass
+
+def derivation_renderables(derivation) -> list[Any]:
+    """Header, one panel per quantity (with its approximation, value and error rows), sensitivity tables."""
+    out: list[Any] = [f"[bold]{derivation.target.title}[/bold]  ({derivation.target.where})"]
+    bias = derivation.bias
+    for result in derivation.results:
+        rows = approximation_rows(result.approximation) if result.approximation is not None else []
+        if bias is not None:
+            rows.insert(0, ("at the operating point", value_text(result, bias.temperature)))
+        if result.transfer_error is not None:
+            rows += _error_rows(result.transfer_error)
+        out.append(formula_panel(result.formula, rows))
+        if result.sensitivities:
+            point = ", ".join(f"{k}={v:.3g}" for k, v in (result.sensitivity_point or {}).items())
+            out.append(sensitivity_table(result.sensitivities, title=f"sensitivities S = (x/F) dF/dx at {point}"))
+    out.append(f"[dim]{CAUTION}[/dim]")
+    return out

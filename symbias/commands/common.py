@@ -1,0 +1,100 @@
+"""Arguments shared by several sub-commands, and the two ways every command prints.
+
+Not a command itself (it is not in :data:`symbias.commands.COMMANDS`).  It
+only turns arguments into the pipeline's inputs and hands results to
+:mod:`symbias.render`; no analysis happens here.
+
+Examples
+--------
+>>> parse_assignments(["RE=1k", "vx=0.5"], "--set")
+{'RE': 1000.0, 'vx': 0.5}
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from typing import Any, Iterable
+
+from ..errors import UsageError
+
+__all__ = ["add_target_argument", "add_design_arguments", "add_dc_arguments", "parse_assignments", "target_of",
+           "inputs_of", "print_renderables", "print_json"]
+
+
+def add_target_argument(parser: argparse.ArgumentParser) -> None:
+    """Add the netlist-or-identifier argument and ``--library``."""
+    parser.add_argument("netlist", help="netlist file, or a topology identifier from the library")
+    parser.add_argument("--library", action="append", default=[], metavar="DIR", help="extra topology folder")
+
+
+def add_design_arguments(group) -> None:
+    """Add --process, --temp and --set: what a circuit needs to become numbers."""
+    group.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
+    group.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
+    group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
+                       help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
+
+
+def add_dc_arguments(parser: argparse.ArgumentParser) -> None:
+    """Add the target, --process, --temp, --set, --guess and --json arguments."""
+    add_target_argument(parser)
+    add_design_arguments(parser)
+    parser.add_argument("--guess", action="append", default=[], metavar="NODE=VOLTS",
+                        help="starting voltage of a node, to pick one of several solutions (repeatable)")
+    parser.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def parse_assignments(items: Iterable[str], flag: str) -> dict[str, float]:
+    """``["A=1k", ...]`` -> ``{"A": 1000.0}``; SPICE suffixes allowed.
+
+    Raises
+    ------
+    UsageError
+        For an item without ``=`` or a value that is not a number.
+    """
+    from ..expressions import try_parse_number
+    from ..errors import SymbiasError
+
+    out: dict[str, float] = {}
+    for item in items:
+        name, sep, text = item.partition("=")
+        try:
+            number = try_parse_number(text) if sep else None
+        except SymbiasError:
+            number = None
+        if not name.strip() or number is None:
+            raise UsageError(f"expects NAME=NUMBER, got {item!r}", path=flag)
+        out[name.strip()] = float(number)
+    return out
+
+
+def target_of(args: argparse.Namespace):
+    """The pipeline target named by the arguments."""
+    from ..pipeline import load_target
+
+    return load_target(args.netlist, args.library)
+
+
+def inputs_of(args: argparse.Namespace, target):
+    """The pipeline's design inputs from --process, --temp, --set (and --guess where the command has it)."""
+    from ..pipeline import design_inputs
+
+    guess = parse_assignments(getattr(args, "guess", []), "--guess")
+    return design_inputs(target, args.process, args.temp, parse_assignments(args.set, "--set"), guess)
+
+
+def print_renderables(renderables: Iterable[Any]) -> None:
+    """Print rich renderables (strings take rich markup) on stdout."""
+    from ..render.console import terminal_console
+
+    console = terminal_console()
+    for renderable in renderables:
+        console.print(renderable)
+
+
+def print_json(record: Any) -> None:
+    """Print one JSON object (infinities and NaN as null)."""
+    from ..render.json import dumps
+
+    sys.stdout.write(dumps(record) + "\n")

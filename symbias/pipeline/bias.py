@@ -1,0 +1,92 @@
+"""The DC operating point of a target and the small-signal symbol values it gives.
+
+Pipeline step for numbers: a :class:`~symbias.pipeline.targets.Target` and
+:class:`~symbias.pipeline.targets.DesignInputs` -> an
+:class:`~symbias.dc.operating_point.OperatingPoint` (or every DC state), and
+-> :class:`BiasPoint`: the operating point with the value of every formula
+symbol there (device ``gm``, ``rpi``, ``ro``, ``gmb`` under the naming of the
+chosen small-signal options, plus the numbers given for netlist symbols).
+
+Examples
+--------
+>>> from symbias.pipeline.targets import load_target, design_inputs
+>>> target = load_target("examples/simple_mirror.cir")
+>>> point = bias_point(target, design_inputs(target))
+>>> sorted(point.values)[:3], round(point.values["gm_Q1"] * 1e3, 2)
+(['beta_Q1', 'beta_Q2', 'gm_Q1'], 0.76)
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from types import MappingProxyType
+from typing import Any, Mapping
+
+from ..devices.options import SmallSignalOptions
+from .targets import DesignInputs, Target
+
+__all__ = ["BiasPoint", "bias_point", "operating_point_of", "states_of"]
+
+
+@dataclass(frozen=True, eq=False)
+class BiasPoint:
+    """An operating point and the formula symbol values it gives.
+
+    Parameters
+    ----------
+    point : OperatingPoint
+    values : mapping of str to float
+        Symbol name -> value (device small-signal values and netlist numbers).
+    inputs : DesignInputs
+        What it was solved with.
+    """
+
+    point: Any
+    values: Mapping[str, float]
+    inputs: DesignInputs
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "values", MappingProxyType(dict(self.values)))
+
+    def __reduce__(self):
+        return (BiasPoint, (self.point, dict(self.values), self.inputs))
+
+    @property
+    def temperature(self) -> float:
+        """degC."""
+        return self.inputs.temperature
+
+
+def operating_point_of(target: Target, inputs: DesignInputs):
+    """The DC operating point of a target.
+
+    Raises
+    ------
+    CircuitError, ConvergenceError
+        From the DC solve.
+    """
+    from ..dc.operating_point import operating_point
+
+    return operating_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
+                           guess=dict(inputs.guess) or None)
+
+
+def states_of(target: Target, inputs: DesignInputs):
+    """Every DC state found from several starts (:class:`~symbias.dc.solutions.Solutions`)."""
+    from ..dc.solutions import find_solutions
+
+    return find_solutions(target.circuit, inputs.process, inputs.temperature, inputs.values)
+
+
+def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions | None = None) -> BiasPoint:
+    """The operating point and the symbol values of a small-signal expansion there.
+
+    Matched symbols take the values of the first device of their group,
+    normalised by its multiplier (see :func:`symbias.linear.network.bias_values`).
+    """
+    from ..linear.network import bias_values
+
+    point = operating_point_of(target, inputs)
+    numbers = dict(inputs.values)
+    numbers.update(bias_values(target.circuit, point.small_signal_values(), options or SmallSignalOptions()))
+    return BiasPoint(point, numbers, inputs)

@@ -1,0 +1,93 @@
+"""The terminal: a rich console, plain-text capture, engineering numbers and the design-aid caution.
+
+Lowest level of the renderers; every other renderer takes its console,
+number format and caution text from here, so each is written once.
+
+Examples
+--------
+>>> engineering(1.2244e6, "ohm"), engineering(4.94e-5, "A"), engineering(0.0)
+('1.224Mohm', '49.4uA', '0')
+>>> "local codes" in CAUTION
+True
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from typing import Any
+
+__all__ = ["CAUTION", "terminal_console", "render_to_string", "engineering", "ratio_text"]
+
+#: The caution every output carries: results are design aids.
+CAUTION = ("Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
+           "circuits follow local codes and licensed practice.")
+
+_PREFIXES = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+             (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
+
+
+def engineering(value: float, unit: str = "") -> str:
+    """A number in engineering notation with an SI prefix, e.g. ``1.224M`` + unit.
+
+    Examples
+    --------
+    >>> engineering(float("inf"), "ohm"), engineering(-2.5e-9, "A")
+    ('inf', '-2.5nA')
+    """
+    if value is None or value != value:  # None or nan
+        return "-"
+    if math.isinf(value):
+        return "inf" if value > 0 else "-inf"
+    if value == 0:
+        return f"0{unit}"
+    for scale, prefix in _PREFIXES:
+        if abs(value) >= scale:
+            return f"{value / scale:.4g}{prefix}{unit}"
+    return f"{value:.3g}{unit}"
+
+
+def ratio_text(value: float | None) -> str:
+    """A dimensionless ratio without an SI prefix (``0.98347``).
+
+    Examples
+    --------
+    >>> ratio_text(0.983471), ratio_text(None)
+    ('0.983471', '-')
+    """
+    return "-" if value is None or value != value else f"{value:.6g}"
+
+
+def terminal_console(stream=None) -> Any:
+    """A rich console on stdout, 120 columns wide when the output is not a terminal.
+
+    Piped output (a file, a pager, a test) would otherwise wrap tables at 80 columns.
+    """
+    from rich.console import Console
+
+    stream = stream or sys.stdout
+    out = Console(file=stream)
+    return out if out.is_terminal else Console(file=stream, width=120)
+
+
+def render_to_string(renderable: Any, width: int = 100) -> str:
+    """Render a rich object to plain text (for tests and files).
+
+    Examples
+    --------
+    >>> render_to_string("plain").strip()
+    'plain'
+    """
+    from rich.console import Console
+
+    console = Console(width=width, record=True, color_system=None, file=_Null())
+    console.print(renderable)
+    return console.export_text()
+
+
+class _Null:
+    def write(self, text: str) -> int:
+        return len(text)
+
+    def flush(self) -> None:
+        pass
