@@ -135,13 +135,13 @@ _DECK = "symbias.simulator.deck"
 KINDS: dict[str, ElementKind] = {
     k.letter: k
     for k in (
-        ElementKind("R", "resistor", ("n1", "n2"), value_unit="ohm", parameters=("tc1", "tc2", "layer", "m"),
+        ElementKind("R", "resistor", ("node1", "node2"), value_unit="ohm", parameters=("tc1", "tc2", "layer", "m"),
                     small_signal=f"{_PASSIVES}:resistor_small_signal", dc=f"{_PASSIVES}:resistor_dc",
                     deck=f"{_DECK}:resistor_line"),
-        ElementKind("C", "capacitor", ("n1", "n2"), value_unit="F", parameters=("m",), dc_pairs=(),
+        ElementKind("C", "capacitor", ("node1", "node2"), value_unit="F", parameters=("m",), dc_pairs=(),
                     small_signal=f"{_PASSIVES}:capacitor_small_signal", dc=f"{_PASSIVES}:capacitor_dc",
                     deck=f"{_DECK}:value_line"),
-        ElementKind("L", "inductor", ("n1", "n2"), value_unit="H", parameters=("m",), fixes_voltage=True,
+        ElementKind("L", "inductor", ("node1", "node2"), value_unit="H", parameters=("m",), fixes_voltage=True,
                     small_signal=f"{_PASSIVES}:inductor_small_signal", dc=f"{_PASSIVES}:branch_dc",
                     deck=f"{_DECK}:value_line"),
         ElementKind("V", "voltage source", ("n+", "n-"), value_unit="V", parameters=("ac",), fixes_voltage=True,

@@ -330,89 +330,84 @@ def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> 
 
 
 def _element(line: Line, tokens: list[str], params, models) -> Element:
-    name = tokens[0]
-    kind = name[0].upper()
+    """One element line, read by the fields its kind declares in :mod:`symbias.elements`."""
+    kind = KINDS[tokens[0][0].upper()]
+    positional, named = _split_params(tokens[1:], line.number)
+    inst = {k: _value(v, params, line.number) for k, v in named.items()}
+    if kind.is_device:
+        return _device(line, tokens[0], kind, positional, inst, models, params)
+    if "ac" in kind.parameters:
+        return _independent_source(line, tokens[0], kind, positional, inst, params)
+    count = len(kind.terminals)
+    fields = count + (2 if kind.controlled_by_source else 1)
+    if len(positional) != fields:
+        control = " Vcontrol" if kind.controlled_by_source else ""
+        raise NetlistError(f"{tokens[0]}: expected '{tokens[0]} {' '.join(kind.terminals)}{control} value'",
+                           line=line.number)
+    nodes = tuple(_node(p) for p in positional[:count])
+    control = positional[count] if kind.controlled_by_source else None
+    return Element(tokens[0], kind.letter, nodes, _value(positional[-1], params, line.number), control=control,
+                   params=inst, line=line.number)
+
+
+_TRANSIENT_WORDS = ("pulse", "sin", "pwl", "exp", "sffm", "am", "distof1", "distof2")
+
+
+def _independent_source(line: Line, name: str, kind, positional: list[str], inst: dict, params) -> Element:
+    """``V/I n+ n- [DC] value [AC mag [phase]] [transient...]``; the DC value must be given."""
     n = line.number
-    positional, named = _split_params(tokens[1:], n)
-    inst = {k: _value(v, params, n) for k, v in named.items()}
-    if kind in ("R", "C", "L"):
-        if len(positional) != 3:
-            raise NetlistError(f"{name}: expected '{name} node1 node2 value'", line=n)
-        return Element(name, kind, (_node(positional[0]), _node(positional[1])), _value(positional[2], params, n),
-                       params=inst, line=n)
-    if kind in ("V", "I"):
-        if len(positional) < 2:
-            raise NetlistError(f"{name}: expected '{name} node+ node- [DC] value'", line=n)
-        nodes = (_node(positional[0]), _node(positional[1]))
-        rest = positional[2:]
-        value = ZERO
-        i = 0
-        while i < len(rest):
-            word = rest[i].lower()
-            if word == "dc" and i + 1 < len(rest):
-                value = _value(rest[i + 1], params, n)
-                i += 2
-            elif word == "ac" and i + 1 < len(rest):
-                inst["ac"] = _value(rest[i + 1], params, n)
-                i += 2
-                if i < len(rest) and _looks_numeric(rest[i]):
-                    i += 1  # AC phase
-            elif word in ("pulse", "sin", "pwl", "exp", "sffm", "am", "distof1", "distof2"):
-                break  # transient specification: not used by symbias
-            elif i == 0:
-                value = _value(rest[i], params, n)
-                i += 1
-            else:
-                raise NetlistError(f"{name}: unexpected {rest[i]!r}", line=n)
-        return Element(name, kind, nodes, value, params=inst, line=n)
-    if kind in ("G", "E"):
-        if len(positional) != 5:
-            raise NetlistError(f"{name}: expected '{name} n+ n- nc+ nc- value'", line=n)
-        return Element(name, kind, tuple(_node(p) for p in positional[:4]), _value(positional[4], params, n),
-                       params=inst, line=n)
-    if kind in ("F", "H"):
-        if len(positional) != 4:
-            raise NetlistError(f"{name}: expected '{name} n+ n- Vcontrol value'", line=n)
-        return Element(name, kind, (_node(positional[0]), _node(positional[1])), _value(positional[3], params, n),
-                       control=positional[2], params=inst, line=n)
-    if kind == "Q":
-        # Q c b e [s] model [area]: the model is the first token naming a known .model
-        index = next((i for i, t in enumerate(positional) if t.lower() in models and i >= 3), None)
-        if index is None:
-            if len(positional) >= 4:
-                raise NetlistError(f"{name}: undefined model {positional[3]!r}", line=n)
-            raise NetlistError(f"{name}: expected '{name} c b e [s] model [area]'", line=n)
-        if index not in (3, 4):
-            raise NetlistError(f"{name}: expected 3 or 4 nodes before the model, got {index}", line=n)
-        extra = positional[index + 1:]
-        if len(extra) > 1:
-            raise NetlistError(f"{name}: unexpected {extra[1]!r} after the area", line=n)
-        if extra:
-            inst["area"] = _value(extra[0], params, n)
-        return Element(name, kind, tuple(_node(p) for p in positional[:index]), None, model=positional[index],
-                       params=inst, line=n)
-    if kind == "D":
-        # D anode cathode model [area]
-        if len(positional) < 3 or positional[2].lower() not in models:
-            if len(positional) >= 3:
-                raise NetlistError(f"{name}: undefined model {positional[2]!r}", line=n)
-            raise NetlistError(f"{name}: expected '{name} anode cathode model [area]'", line=n)
-        if len(positional) > 4:
-            raise NetlistError(f"{name}: unexpected {positional[4]!r} after the area", line=n)
-        if len(positional) == 4:
-            inst["area"] = _value(positional[3], params, n)
-        return Element(name, kind, (_node(positional[0]), _node(positional[1])), None, model=positional[2],
-                       params=inst, line=n)
-    if kind == "M":
-        if len(positional) != 5:
-            if len(positional) >= 5 and positional[4].lower() not in models:
-                raise NetlistError(f"{name}: undefined model {positional[4]!r}", line=n)
-            raise NetlistError(f"{name}: expected '{name} d g s b model [W=.. L=.. m=..]'", line=n)
-        if positional[4].lower() not in models:
-            raise NetlistError(f"{name}: undefined model {positional[4]!r}", line=n)
-        return Element(name, kind, tuple(_node(p) for p in positional[:4]), None, model=positional[4],
-                       params=inst, line=n)
-    raise NetlistError(f"unknown element letter {kind!r}", line=n)  # pragma: no cover - guarded by caller
+    if len(positional) < 2:
+        raise NetlistError(f"{name}: expected '{name} node+ node- [DC] value'", line=n)
+    rest = positional[2:]
+    value = None
+    i = 0
+    while i < len(rest):
+        word = rest[i].lower()
+        if word == "dc" and i + 1 < len(rest):
+            value = _value(rest[i + 1], params, n)
+            i += 2
+        elif word == "ac" and i + 1 < len(rest):
+            inst["ac"] = _value(rest[i + 1], params, n)
+            i += 2
+            if i < len(rest) and _looks_numeric(rest[i]):
+                i += 1  # AC phase
+        elif word in _TRANSIENT_WORDS:
+            break  # transient specification: not used by symbias
+        elif i == 0:
+            value = _value(rest[i], params, n)
+            i += 1
+        else:
+            raise NetlistError(f"{name}: unexpected {rest[i]!r}", line=n)
+    if value is None:
+        unit = kind.value_unit
+        raise NetlistError(f"{name}: no value: write '{name} {positional[0]} {positional[1]} VALUE' "
+                           f"(0 for a {'0 V ammeter' if unit == 'V' else 'source that is off'})", line=n)
+    return Element(name, kind.letter, (_node(positional[0]), _node(positional[1])), value, params=inst, line=n)
+
+
+def _device(line: Line, name: str, kind, positional: list[str], inst: dict, models, params) -> Element:
+    """``X n1 n2 ... model [area]``: the model is the first known model name after the fewest terminals."""
+    n = line.number
+    low, high = min(kind.node_counts), max(kind.node_counts)
+    usage = f"'{name} {' '.join(kind.terminals[:low])}{' [' + kind.terminals[-1] + ']' if kind.optional else ''} " \
+            f"model{' [area]' if 'area' in kind.parameters else ''}'"
+    index = next((i for i, t in enumerate(positional) if t.lower() in models and i >= low), None)
+    if index is None:
+        if len(positional) > low:
+            raise NetlistError(f"{name}: undefined model {positional[low]!r}", line=n)
+        raise NetlistError(f"{name}: expected {usage}", line=n)
+    if index > high:
+        raise NetlistError(f"{name}: expected {low}{'-' + str(high) if high > low else ''} nodes before the model, "
+                           f"got {index}", line=n)
+    extra = positional[index + 1:]
+    if extra and "area" not in kind.parameters:
+        raise NetlistError(f"{name}: unexpected {extra[0]!r} after the model (expected {usage})", line=n)
+    if len(extra) > 1:
+        raise NetlistError(f"{name}: unexpected {extra[1]!r} after the area", line=n)
+    if extra:
+        inst["area"] = _value(extra[0], params, n)
+    return Element(name, kind.letter, tuple(_node(p) for p in positional[:index]), None, model=positional[index],
+                   params=inst, line=n)
 
 
 def _looks_numeric(text: str) -> bool:
