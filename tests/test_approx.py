@@ -24,6 +24,8 @@ from symbias.approx import (
     magnitude_model,
     parse_assumption,
 )
+from symbias.approx.arrays import dot
+from symbias.approx.search import pair_errors, subset_sums
 from symbias.errors import SymbiasError
 from symbias.netlist import read_netlist
 from symbias.devices.options import SmallSignalOptions
@@ -349,15 +351,13 @@ def test_sampling_in_blocks_draws_the_documented_points(max_draws):
 
 
 def test_pair_screen_is_exact_where_it_decides():
-    from symbias.approx import _pair_errors
-
     rng = np.random.default_rng(FRESH_SEED)
     rn = np.exp(rng.normal(0, 0.1, (500, 40)))
     rd = np.exp(rng.normal(0, 0.1, (500, 30)))
     rn[:, 3] = rd[:, 7] * (1 + rng.uniform(-0.02, 0.02, 500))  # a pair within 2 %
     full = np.abs(rn[:, :, None] / rd[:, None, :] - 1).max(axis=0)  # every pair at every point
     for tolerance in (0.05, 0.3, 1e-6):
-        screened = _pair_errors(rn, rd, tolerance)
+        screened = pair_errors(rn, rd, tolerance)
         inside = full <= tolerance
         np.testing.assert_array_equal(screened[inside], full[inside])
         assert np.all(screened[~inside] > tolerance) and np.all(screened <= full)
@@ -365,14 +365,12 @@ def test_pair_screen_is_exact_where_it_decides():
 
 
 def test_products_and_subset_sums_match_plain_numpy():
-    from symbias.approx import _dot, _subset_sums
-
     rng = np.random.default_rng(FRESH_SEED)
     a, b = rng.normal(size=(300, 18)), rng.integers(0, 3, size=(18, 1000)).astype(float)
-    np.testing.assert_allclose(_dot(a, b), a @ b, rtol=1e-12, atol=1e-12)  # cut into single-thread row blocks
+    np.testing.assert_allclose(dot(a, b), a @ b, rtol=1e-12, atol=1e-12)  # cut into single-thread row blocks
     columns = rng.normal(size=(50, 10))
     subsets = [(0, 4, 9), (1, 2, 3), (5, 6, 8)]
-    np.testing.assert_array_equal(_subset_sums(columns, subsets),
+    np.testing.assert_array_equal(subset_sums(columns, subsets),
                                   np.stack([columns[:, list(s)].sum(axis=1) for s in subsets], axis=1))
 
 
