@@ -223,7 +223,7 @@ def test_regulated_cascode_with_ideal_booster():
 
 def test_simple_mirror_gain_is_one_minus_two_over_beta():
     # Gray, Hurst, Lewis and Meyer, 5th ed., ch. 4 (simple current mirror): Iout/Iin = 1/(1 + 2/beta)
-    # with ro ignored (from memory); the epsilon side is tested in test_mirror_error.py
+    # with ro ignored (from memory); the epsilon side is tested in test_transfer_error.py
     gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", options(beta=True))
     points = bjt_points()
     b, g, r = points["beta"], points["gm"], points["ro"]

@@ -199,7 +199,7 @@ def _extras(args: argparse.Namespace, formula) -> Result:
             point = model.centre() if model is not None else {}
             sensitivities = table(formula, point)
         if args.mirror_error and formula.quantity == "current_gain":
-            from ..mirror_error import transfer_error
+            from ..transfer_error import transfer_error
 
             error = transfer_error(formula, None, args.assume, **options)
     except AssumptionError as err:
