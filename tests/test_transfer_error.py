@@ -82,3 +82,10 @@ def test_limit_keeps_leading_powers():
     assert limit(gain, "beta", "zero").expr == 0
     with pytest.raises(AnalysisError, match="sideways"):
         limit(gain, "beta", "sideways")
+
+
+@pytest.mark.parametrize("ideal", [0, float("inf"), "one", True])
+def test_an_unusable_ideal_transfer_is_an_analysis_error(ideal):
+    gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", MATCH)
+    with pytest.raises(AnalysisError, match="ideal transfer"):
+        transfer_error(gain, ideal)

@@ -270,8 +270,7 @@ def magnitude_model(
     meanings = meanings or {}
     if LAPLACE in names:
         raise AnalysisError("cannot approximate a frequency-dependent result (s appears); evaluate it numerically")
-    user = [parse_assumption(a) if isinstance(a, str) else a for a in assumptions]
-    user = [a for a in user if a.names <= set(names)]
+    user = [a for a in map(_statement, assumptions) if a.names <= set(names)]
     statements = user + (_open_defaults(names, user) if defaults else [])
     factors, checks, rows = _factors_and_checks(names, statements)
     reference = _reference(names, meanings)
@@ -288,6 +287,14 @@ def magnitude_model(
             factors.append(statement)
             rows.append(statement.row(names))
     return MagnitudeModel(names, tuple(factors), tuple(checks))
+
+
+def _statement(item: Assumption | str) -> Assumption:
+    if isinstance(item, Assumption):
+        return item
+    if isinstance(item, str):
+        return parse_assumption(item)
+    raise AssumptionError(f"an assumption is a statement (text) or an Assumption, got {item!r}")
 
 
 def _open_defaults(names: Sequence[str], user: Sequence[Assumption]) -> list[Assumption]:

@@ -151,6 +151,9 @@ class Assumption:
         [-1.0, 1.0, 1.0]
         """
         index = {n: i for i, n in enumerate(names)}
+        missing = sorted(self.names - index.keys())
+        if missing:
+            raise AssumptionError(f"{self.text!r} speaks of {', '.join(missing)}, not among the symbols in question")
         out = np.zeros(len(names))
         for n, e in self.powers:
             out[index[n]] = e
