@@ -164,7 +164,7 @@ def sensitivities(
     for label, members in rows:
         value = None
         if at is not None:
-            value = float(sum(sensitivity_value(formula, m, at) for m in members))
+            value = _at_point(formula, members, at)
         expr = _symbolic(formula, members) if symbolic else None
         table.append(Sensitivity(label, tuple(members), value, expr))
     if at is not None:
@@ -198,4 +198,13 @@ def group_sensitivity(formula: Formula, names: Iterable[str], at: Mapping[str, f
     names = tuple(names)
     if not names:
         raise AnalysisError(f"{formula.label}: no symbols given for a group sensitivity")
-    return float(sum(sensitivity_value(formula, n, at) for n in names))
+    return _at_point(formula, names, at)
+
+
+def _at_point(formula: Formula, names: Iterable[str], at: Mapping[str, float]) -> float:
+    """The summed sensitivity at one point (a table row is a number; arrays go to sensitivity_value)."""
+    total = sum(sensitivity_value(formula, n, at) for n in names)
+    if np.ndim(total):
+        raise AnalysisError(f"a sensitivity table is taken at one point, not at arrays of values; "
+                            f"use sensitivity_value for {formula.label} over arrays")
+    return float(total)

@@ -162,3 +162,10 @@ def test_sensitivities_at_the_bias_point_with_a_numeric_resistor():
     resistive = sum(row.value for row in rows if ohm_power(row.symbol, f.meanings) == 1)
     conductive = sum(row.value for row in rows if ohm_power(row.symbol, f.meanings) == -1)
     assert resistive - conductive == pytest.approx(1.0, rel=1e-9)
+
+
+def test_a_table_at_arrays_of_values_is_refused():
+    f = output_resistance(parse_netlist("t\nI1 0 a 1\nR1 a 0 RA\nR2 a 0 RB\n"), "a")
+    with pytest.raises(AnalysisError, match="one point"):
+        sensitivities(f, {"RA": [1.0, 2.0], "RB": [3.0, 4.0]})
+    np.testing.assert_allclose(sensitivity_value(f, "RA", {"RA": [1.0, 2.0], "RB": [3.0, 4.0]}), [0.75, 4 / 6])
