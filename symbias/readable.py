@@ -23,11 +23,12 @@ VA*beta/(2*IC)
 
 from __future__ import annotations
 
+import math
 from typing import Mapping
 
-import sympy
+import sympy  # at import: Parallel below is a sympy function class
 
-from .symbols import latex_name, owners
+from .symbols import device_symbol, latex_name, owners
 
 __all__ = [
     "Parallel",
@@ -128,10 +129,11 @@ def _ordered(expr: sympy.Expr, values: Mapping[str, float] | None) -> sympy.Expr
         subs = {sympy.Symbol(k): v for k, v in values.items()}
 
         def size(term):
-            try:
-                return -abs(complex(expand_parallel(term).evalf(subs=subs)))
-            except (TypeError, ValueError):  # a term with a symbol outside ``values``
-                return 0.0
+            plain = expand_parallel(term)
+            if not plain.free_symbols <= subs.keys():
+                return 0.0  # a term with a symbol outside ``values`` cannot be sized; it goes after the known ones
+            magnitude = abs(complex(plain.evalf(subs=subs)))
+            return -magnitude if math.isfinite(magnitude) else -math.inf
 
         return sympy.Add(*sorted(args, key=size), evaluate=False)
     return expr.func(*args, evaluate=False) if expr.is_Mul or expr.is_Pow else expr.func(*args)
@@ -197,7 +199,7 @@ def bias_substitutions(names, kind: str | None = None) -> dict[sympy.Symbol, sym
     out: dict[sympy.Symbol, sympy.Expr] = {}
     for device, parameters in sorted(groups.items()):
         def sym(base: str) -> sympy.Symbol:
-            return sympy.Symbol(f"{base}_{device}" if device else base)
+            return sympy.Symbol(device_symbol(base, device or None))
 
         bipolar = kind == "bjt" or (kind is None and parameters & {"rpi", "beta"})
         if bipolar:

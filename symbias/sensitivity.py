@@ -21,15 +21,18 @@ RB/(RA + RB)
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
-from typing import Any, Iterable, Mapping
+from typing import TYPE_CHECKING, Any, Iterable, Mapping
 
 import numpy as np
-import sympy
 
 from .errors import AnalysisError
 from .formula import Formula, cancel_common_factor
+from .linear.numeric import normalise_values
+from .symbols import LAPLACE, PARAMETERS, symbols_of
+
+if TYPE_CHECKING:
+    import sympy
 
 __all__ = [
     "Sensitivity",
@@ -89,7 +92,9 @@ def sensitivity_value(formula: Formula, name: str, values: Mapping[Any, Any]) ->
             continue
         ratio = formula.with_polynomials(slope, poly, problem=None)
         total = total + sign * ratio.evaluate(values, route="polynomial")
-    x = {(k.name if isinstance(k, sympy.Symbol) else str(k)): v for k, v in values.items()}[name]
+    x = normalise_values(values).get(name)
+    if x is None:
+        raise AnalysisError(f"no value given for {name}")
     return np.asarray(np.asarray(x, dtype=float) * total)
 
 
@@ -118,6 +123,8 @@ class Sensitivity:
 def _symbolic(formula: Formula, names: Iterable[str]) -> sympy.Expr | None:
     if sum(formula.nterms) > SYMBOLIC_TERMS:
         return None
+    import sympy
+
     total = sympy.Integer(0)
     for name in names:
         total += sensitivity(formula, name).expr
@@ -151,13 +158,13 @@ def sensitivities(
     >>> [(s.symbol, round(s.value, 3)) for s in sensitivities(f, {"RA": 1.0, "RB": 3.0})]
     [('RA', 0.75), ('RB', 0.25)]
     """
-    rows = [(s.name, (s.name,)) for s in formula.symbols if s.name != "s"]
+    rows = [(s.name, (s.name,)) for s in formula.symbols if s.name != LAPLACE]
     rows += [(label, tuple(members)) for label, members in (groups or {}).items()]
     table = []
     for label, members in rows:
         value = None
         if at is not None:
-            value = float(sum(sensitivity_value(formula, m, at) for m in members))
+            value = _at_point(formula, members, at)
         expr = _symbolic(formula, members) if symbolic else None
         table.append(Sensitivity(label, tuple(members), value, expr))
     if at is not None:
@@ -168,6 +175,11 @@ def sensitivities(
 def parameter_symbols(formula: Formula, parameter: str) -> tuple[str, ...]:
     """Symbols of one device parameter: ``ro`` and every ``ro_<device>``.
 
+    Raises
+    ------
+    AnalysisError
+        If ``parameter`` is not a device parameter (see :data:`symbias.symbols.PARAMETERS`).
+
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
@@ -176,8 +188,9 @@ def parameter_symbols(formula: Formula, parameter: str) -> tuple[str, ...]:
     >>> parameter_symbols(output_resistance(c, "a"), "ro")
     ('ro_Q1', 'ro_Q2')
     """
-    pattern = re.compile(rf"^{re.escape(parameter)}(_\w+)?$")
-    return tuple(s.name for s in formula.symbols if pattern.match(s.name))
+    if parameter not in PARAMETERS:
+        raise AnalysisError(f"{parameter!r} is not a device parameter; expected one of {', '.join(PARAMETERS)}")
+    return symbols_of((s.name for s in formula.symbols), parameter)
 
 
 def group_sensitivity(formula: Formula, names: Iterable[str], at: Mapping[str, float]) -> float:
@@ -185,4 +198,13 @@ def group_sensitivity(formula: Formula, names: Iterable[str], at: Mapping[str, f
     names = tuple(names)
     if not names:
         raise AnalysisError(f"{formula.label}: no symbols given for a group sensitivity")
-    return float(sum(sensitivity_value(formula, n, at) for n in names))
+    return _at_point(formula, names, at)
+
+
+def _at_point(formula: Formula, names: Iterable[str], at: Mapping[str, float]) -> float:
+    """The summed sensitivity at one point (a table row is a number; arrays go to sensitivity_value)."""
+    total = sum(sensitivity_value(formula, n, at) for n in names)
+    if np.ndim(total):
+        raise AnalysisError(f"a sensitivity table is taken at one point, not at arrays of values; "
+                            f"use sensitivity_value for {formula.label} over arrays")
+    return float(total)

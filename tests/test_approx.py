@@ -10,23 +10,34 @@ seed, different sampler).
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
 import sympy
 
-from symbias.analyses import current_gain, output_resistance
-from symbias.approx import (
+sys.path.insert(0, str(Path(__file__).parent))  # the reference solver lives beside the tests
+
+from reference_solver import reference_value  # noqa: E402
+
+from symbias.analyses import current_gain, output_resistance  # noqa: E402
+from symbias.approx import (  # noqa: E402
     AssumptionError,
     approximate,
     default_assumptions,
     magnitude_model,
+    nominal_ranges,
     parse_assumption,
 )
-from symbias.errors import SymbiasError
-from symbias.netlist import read_netlist
-from symbias.devices.options import SmallSignalOptions
+from symbias.approx.arrays import dot  # noqa: E402
+from symbias.approx.search import pair_errors, subset_sums  # noqa: E402
+from symbias.dc.operating_point import operating_point  # noqa: E402
+from symbias.devices.options import SmallSignalOptions  # noqa: E402
+from symbias.errors import SymbiasError  # noqa: E402
+from symbias.linear.network import bias_values  # noqa: E402
+from symbias.netlist import read_netlist  # noqa: E402
+from symbias.symbols import owners, parse_symbol  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 DECKS = ROOT / "tests" / "decks" / "approx"
@@ -84,23 +95,38 @@ def options(**kw):
 
 
 # -- hand-written nodal solves (hybrid-pi, matched devices) ----------------------------------
-def wilson_rout_by_hand(beta, gm, ro):
-    """Wilson mirror Q1 (c=in, b=x), Q2 diode at x, Q3 (c=out, b=in, e=x); 1 A into out."""
-    rpi = beta / gm
-    n = len(beta)
+def wilson_rout_by_hand(q1, q2, q3):
+    """Wilson mirror Q1 (c=in, b=x), Q2 diode at x, Q3 (c=out, b=in, e=x); 1 A into out.
+
+    Each device is a mapping of gm, rpi and ro (arrays); matched devices pass the same one.
+    """
+    n = len(q1["gm"])
     M = np.zeros((n, 3, 3))
     # unknowns v_in, v_x, v_out; rows: KCL (current leaving) at in, x, out
-    M[:, 0, 0] = 1 / ro + 1 / rpi
-    M[:, 0, 1] = gm - 1 / rpi
-    M[:, 1, 0] = -1 / rpi - gm
-    M[:, 1, 1] = 2 / rpi + gm + 1 / ro + 1 / rpi + gm + 1 / ro
-    M[:, 1, 2] = -1 / ro
-    M[:, 2, 0] = gm
-    M[:, 2, 1] = -gm - 1 / ro
-    M[:, 2, 2] = 1 / ro
+    M[:, 0, 0] = 1 / q1["ro"] + 1 / q3["rpi"]
+    M[:, 0, 1] = q1["gm"] - 1 / q3["rpi"]
+    M[:, 1, 0] = -1 / q3["rpi"] - q3["gm"]
+    M[:, 1, 1] = (1 / q1["rpi"] + 1 / q2["rpi"] + q2["gm"] + 1 / q2["ro"]
+                  + 1 / q3["rpi"] + q3["gm"] + 1 / q3["ro"])
+    M[:, 1, 2] = -1 / q3["ro"]
+    M[:, 2, 0] = q3["gm"]
+    M[:, 2, 1] = -q3["gm"] - 1 / q3["ro"]
+    M[:, 2, 2] = 1 / q3["ro"]
     rhs = np.zeros((n, 3, 1))
     rhs[:, 2, 0] = 1.0
     return np.linalg.solve(M, rhs)[:, 2, 0]
+
+
+def matched_wilson_rout_by_hand(points):
+    """The same with matched devices in the beta form (rpi = beta/gm)."""
+    device = {"gm": points["gm"], "rpi": points["beta"] / points["gm"], "ro": points["ro"]}
+    return wilson_rout_by_hand(device, device, device)
+
+
+def devices(values):
+    """Per-device values ``{"Q1": {"gm": ..., "rpi": ..., "ro": ...}}`` from symbol values (gm_Q1, ...)."""
+    return {owner: {parameter: values[name] for parameter, name in symbols.items()}
+            for owner, symbols in owners(values).items()}
 
 
 def bjt_cascode_rout_by_hand(beta, gm, ro):
@@ -129,7 +155,7 @@ def test_wilson_output_resistance_is_beta_ro_over_two():
     # source): Rout ~ beta*ro/2 (equation number from memory, not checked)
     exact = output_resistance(read_netlist(EXAMPLES / "wilson_mirror.cir"), "Vout", options(beta=True))
     points = bjt_points()
-    by_hand = wilson_rout_by_hand(points["beta"], points["gm"], points["ro"])
+    by_hand = matched_wilson_rout_by_hand(points)
     np.testing.assert_allclose(exact.evaluate(points), by_hand, rtol=1e-9)
     a = approximate(exact)
     assert sympy.simplify(a.expr - beta * ro / 2) == 0
@@ -221,7 +247,7 @@ def test_regulated_cascode_with_ideal_booster():
 
 def test_simple_mirror_gain_is_one_minus_two_over_beta():
     # Gray, Hurst, Lewis and Meyer, 5th ed., ch. 4 (simple current mirror): Iout/Iin = 1/(1 + 2/beta)
-    # with ro ignored (from memory); the epsilon side is tested in test_mirror_error.py
+    # with ro ignored (from memory); the epsilon side is tested in test_transfer_error.py
     gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", options(beta=True))
     points = bjt_points()
     b, g, r = points["beta"], points["gm"], points["ro"]
@@ -239,7 +265,7 @@ def test_tighter_tolerance_keeps_more_terms_and_full_tolerance_keeps_fewest():
     assert sum(k for k, _ in tight.kept) > sum(k for k, _ in loose.kept)
     assert tight.error <= 0.001
     points = bjt_points(2000)
-    assert holds(remeasure(tight, wilson_rout_by_hand(points["beta"], points["gm"], points["ro"]), points),
+    assert holds(remeasure(tight, matched_wilson_rout_by_hand(points), points),
                  tight.error)
 
 
@@ -255,10 +281,16 @@ def test_same_seed_same_result_and_backends_agree():
 def test_unmatched_devices_reduce_to_the_matched_form():
     exact = output_resistance(read_netlist(EXAMPLES / "wilson_mirror.cir"), "Vout", SmallSignalOptions())
     a = approximate(exact)
-    same = {s: sympy.Symbol(s.name.split("_")[0]) for s in a.expr.free_symbols}
+    same = {s: sympy.Symbol(parse_symbol(s.name).parameter) for s in a.expr.free_symbols}
     reduced = sympy.simplify(a.expr.xreplace(same).subs(sympy.Symbol("rpi"), beta / gm))
-    # beta*ro/2 up to the (beta + 1)/beta refinement the unmatched search keeps
-    assert sympy.simplify(reduced - (beta + 1) * ro / 2) == 0 or sympy.simplify(reduced - beta * ro / 2) == 0
+    # Gray et al., 5th ed., ch. 4: beta*ro/2; the unmatched search keeps the (beta + 1)/beta refinement
+    assert sympy.simplify(reduced - (beta + 1) * ro / 2) == 0
+    # the claimed worst error is the error at the reported point, the exact value solved by hand there
+    worst = devices({name: np.array([value]) for name, value in a.worst_point.items()})
+    by_hand = wilson_rout_by_hand(worst["Q1"], worst["Q2"], worst["Q3"])
+    point = {name: np.array([value]) for name, value in a.worst_point.items()}
+    assert remeasure(a, by_hand, point) == pytest.approx(a.error, rel=1e-9)
+    assert 0.01 < a.error <= 0.1
 
 
 def test_user_assumption_changes_the_answer():
@@ -349,15 +381,13 @@ def test_sampling_in_blocks_draws_the_documented_points(max_draws):
 
 
 def test_pair_screen_is_exact_where_it_decides():
-    from symbias.approx import _pair_errors
-
     rng = np.random.default_rng(FRESH_SEED)
     rn = np.exp(rng.normal(0, 0.1, (500, 40)))
     rd = np.exp(rng.normal(0, 0.1, (500, 30)))
     rn[:, 3] = rd[:, 7] * (1 + rng.uniform(-0.02, 0.02, 500))  # a pair within 2 %
     full = np.abs(rn[:, :, None] / rd[:, None, :] - 1).max(axis=0)  # every pair at every point
     for tolerance in (0.05, 0.3, 1e-6):
-        screened = _pair_errors(rn, rd, tolerance)
+        screened = pair_errors(rn, rd, tolerance)
         inside = full <= tolerance
         np.testing.assert_array_equal(screened[inside], full[inside])
         assert np.all(screened[~inside] > tolerance) and np.all(screened <= full)
@@ -365,14 +395,12 @@ def test_pair_screen_is_exact_where_it_decides():
 
 
 def test_products_and_subset_sums_match_plain_numpy():
-    from symbias.approx import _dot, _subset_sums
-
     rng = np.random.default_rng(FRESH_SEED)
     a, b = rng.normal(size=(300, 18)), rng.integers(0, 3, size=(18, 1000)).astype(float)
-    np.testing.assert_allclose(_dot(a, b), a @ b, rtol=1e-12, atol=1e-12)  # cut into single-thread row blocks
+    np.testing.assert_allclose(dot(a, b), a @ b, rtol=1e-12, atol=1e-12)  # cut into single-thread row blocks
     columns = rng.normal(size=(50, 10))
     subsets = [(0, 4, 9), (1, 2, 3), (5, 6, 8)]
-    np.testing.assert_array_equal(_subset_sums(columns, subsets),
+    np.testing.assert_array_equal(subset_sums(columns, subsets),
                                   np.stack([columns[:, list(s)].sum(axis=1) for s in subsets], axis=1))
 
 
@@ -384,3 +412,63 @@ def test_without_a_short_form_the_exact_form_is_kept_and_printed_only_on_demand(
     assert a.kept == ((1595, 1595), (558, 558)) and a.error == 0.0
     assert "expr" not in vars(a)  # the long sympy form is built on first use only
     assert a.expr == exact.expr
+
+
+# -- at a numeric operating point ----------------------------------------------------------------
+def at_bias(path, numbers=None):
+    """A circuit and its symbol values at the DC operating point: device values plus netlist numbers."""
+    circuit = read_netlist(path)
+    point = operating_point(circuit, values=numbers or {})
+    values = dict(numbers or {})
+    values.update(bias_values(circuit, point.small_signal_values(), SmallSignalOptions()))
+    return circuit, values
+
+
+def nominal_points(values, spread, n=4000, seed=FRESH_SEED):
+    """Each symbol log-uniform in [v*(1 - spread), v*(1 + spread)], drawn here."""
+    rng = np.random.default_rng(seed)
+    return {name: value * _loguniform(rng, 1 - spread, 1 + spread, n) for name, value in sorted(values.items())}
+
+
+def test_wilson_at_its_operating_point():
+    circuit, values = at_bias(EXAMPLES / "wilson_mirror.cir")
+    exact = output_resistance(circuit, "Vout", SmallSignalOptions())
+    a = approximate(exact, nominal_ranges(values, 0.3))
+    # one range per symbol; the defaults give way (ro >> rpi among them, which this bias point does not meet)
+    assert values["ro_Q1"] / values["rpi_Q1"] < 30
+    assert [s.origin for s in a.assumptions] == ["user"] * 9
+    # Gray, Hurst, Lewis and Meyer, 5th ed., ch. 4: beta3*ro3/2 once Q1 and Q2 match (from memory)
+    g1, g2, g3, r3, p3 = sympy.symbols("gm_Q1 gm_Q2 gm_Q3 ro_Q3 rpi_Q3")
+    assert sympy.simplify(a.expr.subs(g2, g1) - g3 * p3 * r3 / 2) == 0
+    # the claimed worst error holds at fresh points of the nominal box, the exact value solved by hand
+    points = nominal_points(values, 0.3)
+    q = devices(points)
+    by_hand = wilson_rout_by_hand(q["Q1"], q["Q2"], q["Q3"])
+    np.testing.assert_allclose(exact.evaluate(points), by_hand, rtol=1e-9)
+    assert holds(remeasure(a, by_hand, points), a.error) and a.error <= 0.1
+    assert float(a.relative_error(values)) <= a.error  # the bias point itself is inside the box
+
+
+def test_degenerated_mirror_at_its_operating_point_with_a_numeric_resistor():
+    # RE is a netlist symbol; its number sits beside the device values, as derive --at-bias --set gives them
+    circuit, values = at_bias(EXAMPLES / "degenerated_mirror.cir", {"RE": 2e3})
+    exact = output_resistance(circuit, "Vout", SmallSignalOptions())
+    assert "RE" in {s.name for s in exact.symbols}
+    a = approximate(exact, nominal_ranges(values, 0.2, names=[s.name for s in exact.symbols]))
+    assert {s.origin for s in a.assumptions} == {"user"} and "RE" in a.worst_point
+    points = nominal_points(values, 0.2, n=1000)
+    reference = reference_value(circuit, "output_resistance", ("Vout",), points, SmallSignalOptions(),
+                                precision="float64").real
+    np.testing.assert_allclose(exact.evaluate(points), reference, rtol=1e-9)
+    assert holds(remeasure(a, reference, points), a.error) and a.error <= 0.1
+
+
+def test_nominal_ranges_of_the_named_symbols_only():
+    values = {"gm_Q1": 1e-3, "VEE": -5.0, "gmb_M1": 0.0}
+    with pytest.raises(AssumptionError, match="VEE"):
+        nominal_ranges(values)
+    (only,) = nominal_ranges(values, 0.1, names=["gm_Q1"])
+    assert (only.powers, only.origin) == ((("gm_Q1", 1.0),), "user")
+    assert (only.low, only.high) == pytest.approx((0.9e-3, 1.1e-3))
+    with pytest.raises(AssumptionError, match="spread"):
+        nominal_ranges(values, 1.5, names=["gm_Q1"])

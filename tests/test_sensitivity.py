@@ -1,29 +1,38 @@
 """Normalised sensitivities S(F, x) = (x/F) dF/dx (symbias.sensitivity).
 
 Checked against exact hand results (S(ro, ro) = 1; S of a parallel pair, derived
-by hand: S(RA || RB, RA) = RB/(RA + RB)) and against central finite differences
-of the exact formula at random points.
+by hand: S(RA || RB, RA) = RB/(RA + RB)), against central finite differences
+of the exact formula at random points, and at DC operating points against
+central differences of the tests' own nodal solver (tests/reference_solver.py).
 """
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import numpy as np
 import pytest
 import sympy
 
-from symbias.analyses import output_resistance
-from symbias.errors import AnalysisError
-from symbias.netlist import parse_netlist, read_netlist
-from symbias.devices.options import SmallSignalOptions
-from symbias.sensitivity import (
+sys.path.insert(0, str(Path(__file__).parent))  # the reference solver lives beside the tests
+
+from reference_solver import reference_value  # noqa: E402
+
+from symbias.analyses import output_resistance  # noqa: E402
+from symbias.dc.operating_point import operating_point  # noqa: E402
+from symbias.devices.options import SmallSignalOptions  # noqa: E402
+from symbias.errors import AnalysisError  # noqa: E402
+from symbias.linear.network import bias_values  # noqa: E402
+from symbias.netlist import parse_netlist, read_netlist  # noqa: E402
+from symbias.sensitivity import (  # noqa: E402
     group_sensitivity,
     parameter_symbols,
     sensitivities,
     sensitivity,
     sensitivity_value,
 )
+from symbias.symbols import ohm_power, symbols_of  # noqa: E402
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 rng = np.random.default_rng(77)
@@ -101,3 +110,62 @@ def test_sensitivity_to_absent_symbol_is_an_error():
     f = output_resistance(parse_netlist("t\nI1 0 a 1\nR1 a 0 RA\n"), "a")
     with pytest.raises(AnalysisError, match="does not depend"):
         sensitivity(f, "RB")
+
+
+def test_parameter_symbols_refuses_a_plain_name():
+    f = output_resistance(parse_netlist("t\nI1 0 a 1\nR1 a 0 RA\n"), "a")
+    with pytest.raises(AnalysisError, match="not a device parameter"):
+        parameter_symbols(f, "RA")
+
+
+# -- at a DC operating point ---------------------------------------------------------------------
+def at_bias(path, numbers=None):
+    """Circuit, exact Rout at Vout and the symbol values at the DC operating point (plus netlist numbers)."""
+    circuit = read_netlist(path)
+    point = operating_point(circuit, values=numbers or {})
+    values = dict(numbers or {})
+    values.update(bias_values(circuit, point.small_signal_values(), SmallSignalOptions()))
+    return circuit, output_resistance(circuit, "Vout", SmallSignalOptions()), values
+
+
+def reference_sensitivity(circuit, values, name, h=1e-6):
+    """Central difference of the reference solver's Rout at Vout in ``name``, normalised."""
+    def rout(scale):
+        point = dict(values)
+        point[name] = values[name] * scale
+        return float(reference_value(circuit, "output_resistance", ("Vout",), point, SmallSignalOptions()).real)
+
+    return (rout(1 + h) - rout(1 - h)) / (2 * h * rout(1.0))
+
+
+def test_simple_mirror_output_resistance_follows_ro2_one_to_one_at_the_bias_point():
+    # Gray, Hurst, Lewis and Meyer, 5th ed., ch. 4: the simple mirror's Rout = ro2 (common practice)
+    circuit, f, values = at_bias(EXAMPLES / "simple_mirror.cir")
+    # the operating point names every device value, beta_Q1 and beta_Q2 too (unused by the rpi form)
+    device_values = symbols_of(values, "gm", "rpi", "ro")
+    assert set(device_values) == {f"{p}_{q}" for p in ("gm", "rpi", "ro") for q in ("Q1", "Q2")}
+    rows = sensitivities(f, at=values)
+    assert [(row.symbol, row.expr) for row in rows] == [("ro_Q2", 1)]
+    assert rows[0].value == pytest.approx(1.0, rel=1e-15)
+    assert reference_sensitivity(circuit, values, "ro_Q2") == pytest.approx(1.0, rel=1e-6)
+    for name in sorted(set(device_values) - {"ro_Q2"}):  # nothing else moves it
+        assert reference_sensitivity(circuit, values, name) == pytest.approx(0.0, abs=1e-9)
+
+
+def test_sensitivities_at_the_bias_point_with_a_numeric_resistor():
+    circuit, f, values = at_bias(EXAMPLES / "degenerated_mirror.cir", {"RE": 2e3})
+    rows = sensitivities(f, at=values, symbolic=False)
+    assert {row.symbol for row in rows} == set(symbols_of(values, "gm", "rpi", "ro")) | {"RE"}
+    for row in rows:
+        assert row.value == pytest.approx(reference_sensitivity(circuit, values, row.symbol), rel=1e-5, abs=1e-8)
+    # a resistance is homogeneous of degree one in every resistance and inverse conductance (by hand)
+    resistive = sum(row.value for row in rows if ohm_power(row.symbol, f.meanings) == 1)
+    conductive = sum(row.value for row in rows if ohm_power(row.symbol, f.meanings) == -1)
+    assert resistive - conductive == pytest.approx(1.0, rel=1e-9)
+
+
+def test_a_table_at_arrays_of_values_is_refused():
+    f = output_resistance(parse_netlist("t\nI1 0 a 1\nR1 a 0 RA\nR2 a 0 RB\n"), "a")
+    with pytest.raises(AnalysisError, match="one point"):
+        sensitivities(f, {"RA": [1.0, 2.0], "RB": [3.0, 4.0]})
+    np.testing.assert_allclose(sensitivity_value(f, "RA", {"RA": [1.0, 2.0], "RB": [3.0, 4.0]}), [0.75, 4 / 6])

@@ -159,7 +159,7 @@ def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint
             rows, point = _sensitivities(formula, request, approximation, bias, options)
         error = None
         if request.transfer_error and formula.quantity == "current_gain":
-            from ..mirror_error import transfer_error
+            from ..transfer_error import transfer_error
 
             error = transfer_error(formula, None, request.assumptions, **options)
     except AssumptionError as err:

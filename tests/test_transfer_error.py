@@ -1,4 +1,4 @@
-"""Error of a current transfer, epsilon = 1 - gain/ideal, and its split by cause (symbias.mirror_error)."""
+"""Error of a current transfer, epsilon = 1 - gain/ideal, and its split by cause (symbias.transfer_error)."""
 
 from __future__ import annotations
 
@@ -9,7 +9,8 @@ import pytest
 import sympy
 
 from symbias.analyses import current_gain
-from symbias.mirror_error import ideal_transfer, limit, transfer_error
+from symbias.errors import AnalysisError
+from symbias.transfer_error import ideal_transfer, limit, transfer_error
 from symbias.netlist import parse_netlist, read_netlist
 from symbias.devices.options import SmallSignalOptions
 
@@ -79,5 +80,12 @@ def test_limit_keeps_leading_powers():
     gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", MATCH)
     assert sympy.simplify(limit(gain, "ro").expr - beta / (beta + 2)) == 0
     assert limit(gain, "beta", "zero").expr == 0
-    with pytest.raises(ValueError):
+    with pytest.raises(AnalysisError, match="sideways"):
         limit(gain, "beta", "sideways")
+
+
+@pytest.mark.parametrize("ideal", [0, float("inf"), "one", True])
+def test_an_unusable_ideal_transfer_is_an_analysis_error(ideal):
+    gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", MATCH)
+    with pytest.raises(AnalysisError, match="ideal transfer"):
+        transfer_error(gain, ideal)

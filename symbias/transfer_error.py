@@ -35,18 +35,20 @@ Examples
 
 from __future__ import annotations
 
-import re
+import math
 from dataclasses import dataclass
 from fractions import Fraction
+from numbers import Rational, Real
 from typing import Iterable
 
-from .approx import DEFAULT_TOLERANCE, Approximation, Assumption, approximate
+from .approx import DEFAULT_SAMPLES, DEFAULT_TOLERANCE, Approximation, Assumption, approximate
 from .errors import AnalysisError
 from .formula import Formula
+from .symbols import symbols_of
 
 __all__ = ["ErrorCause", "TransferError", "limit", "ideal_transfer", "transfer_error", "CAUSES"]
 
-#: Cause name -> (symbol prefixes, the ideal limit of those symbols).
+#: Cause name -> (device parameters that carry it, the ideal limit of their symbols).
 CAUSES: dict[str, tuple[tuple[str, ...], str]] = {
     "finite beta": (("beta", "rpi"), "infinity"),
     "output conductance (Early effect)": (("ro",), "infinity"),
@@ -54,9 +56,9 @@ CAUSES: dict[str, tuple[tuple[str, ...], str]] = {
 }
 
 
-def _members(formula: Formula, prefixes: tuple[str, ...]) -> list[str]:
-    pattern = re.compile(r"^(" + "|".join(prefixes) + r")(_\w+)?$")
-    return [s.name for s in formula.symbols if pattern.match(s.name)]
+def _members(formula: Formula, parameters: tuple[str, ...]) -> tuple[str, ...]:
+    """The formula's symbols of these device parameters, any owner (``ro``, ``ro_Q1`` ...)."""
+    return symbols_of((s.name for s in formula.symbols), *parameters)
 
 
 def limit(formula: Formula, name: str, toward: str = "infinity") -> Formula:
@@ -68,7 +70,8 @@ def limit(formula: Formula, name: str, toward: str = "infinity") -> Formula:
     Raises
     ------
     AnalysisError
-        If the limit is infinite or the symbol sits inside a sub-expression.
+        If the limit is infinite, the symbol sits inside a sub-expression, or
+        ``toward`` is neither ``"infinity"`` nor ``"zero"``.
 
     Examples
     --------
@@ -79,7 +82,7 @@ def limit(formula: Formula, name: str, toward: str = "infinity") -> Formula:
     (RB, 0)
     """
     if toward not in ("infinity", "zero"):
-        raise ValueError(f"toward must be 'infinity' or 'zero', got {toward!r}")
+        raise AnalysisError(f"a limit is taken toward 'infinity' or 'zero', not {toward!r}")
     ring = formula.ring
     up, down, inside = formula.symbol_generators(name)
     if inside:
@@ -113,8 +116,8 @@ def limit(formula: Formula, name: str, toward: str = "infinity") -> Formula:
 
 def _idealise(formula: Formula, causes: Iterable[str]) -> Formula:
     for cause in causes:
-        prefixes, toward = CAUSES[cause]
-        for name in _members(formula, prefixes):
+        parameters, toward = CAUSES[cause]
+        for name in _members(formula, parameters):
             formula = limit(formula, name, toward)
     return formula
 
@@ -168,7 +171,8 @@ class TransferError:
     leading : Approximation
         Epsilon to leading order, with its measured worst error.
     causes : tuple of ErrorCause
-        The split by cause (empty when only one cause is present it is still listed).
+        The split: one entry per cause whose symbols occur in the gain and whose
+        error alone is not zero.
     """
 
     gain: Formula
@@ -184,7 +188,14 @@ def _as_formula(template: Formula, value) -> Formula:
         if value.ring != ring:
             raise AnalysisError("the ideal transfer must come from the same derivation as the gain")
         return value
-    number = Fraction(value).limit_denominator(10**12) if isinstance(value, float) else Fraction(value)
+    if isinstance(value, bool) or not isinstance(value, Real):
+        raise AnalysisError(f"the ideal transfer must be a number or a Formula, got {value!r}")
+    if isinstance(value, Rational):
+        number = Fraction(value)
+    elif math.isfinite(value):
+        number = Fraction(float(value)).limit_denominator(10**12)
+    else:
+        raise AnalysisError(f"the ideal transfer must be finite, got {value!r}")
     if number == 0:
         raise AnalysisError("the ideal transfer must not be zero")
     return template.with_polynomials(ring.constant(number), ring.one)
@@ -198,12 +209,12 @@ def _epsilon(gain: Formula, ideal: Formula, label: str) -> Formula:
 
 def transfer_error(
     formula: Formula,
-    ideal=None,
+    ideal: Formula | float | None = None,
     assumptions: Iterable[Assumption | str] = (),
     *,
     tolerance: float = DEFAULT_TOLERANCE,
     defaults: bool = True,
-    samples: int = 2000,
+    samples: int = DEFAULT_SAMPLES,
     seed: int = 0,
 ) -> TransferError:
     """Exact and leading-order error of a current transfer, split by cause.
@@ -230,8 +241,8 @@ def transfer_error(
     exact = _epsilon(formula, ideal_formula, f"error of {formula.label}")
     leading = approximate(exact, assumptions, **options)
     causes = []
-    for cause, (prefixes, _) in CAUSES.items():
-        symbols = tuple(_members(formula, prefixes))
+    for cause, (parameters, _) in CAUSES.items():
+        symbols = _members(formula, parameters)
         if not symbols:
             continue
         others = [c for c in CAUSES if c != cause]
