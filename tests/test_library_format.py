@@ -241,8 +241,8 @@ def test_topology_pickles():
 
 
 def test_generated_docs_are_up_to_date():
-    # regenerate with: python -m symbias.library_docs docs/topologies.md
-    from symbias.library_docs import render_markdown
+    # regenerate with: python -m symbias.library.docs docs/topologies.md
+    from symbias.library.docs import render_markdown
 
     page = render_markdown(load_library([shipped_dir()]).values())
     assert (ROOT / "docs" / "topologies.md").read_text(encoding="utf-8") == page
@@ -252,7 +252,7 @@ def test_generated_docs_are_up_to_date():
 
 
 def test_docs_check_command(tmp_path):
-    from symbias.library_docs import main as docs_main
+    from symbias.library.docs import main as docs_main
 
     target = tmp_path / "topologies.md"
     assert docs_main([str(target), "--check"]) == 1
