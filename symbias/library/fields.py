@@ -136,18 +136,19 @@ def check_default(text: str, name: str) -> float:
     ...
     symbias.errors.LibraryError: <input>: variable IREF: default: number '1e400' is out of range (exponent beyond +-308)
     """
+    shown = text if len(text) <= 24 else text[:20] + "..."
     try:
         number = try_parse_number(text)
     except SymbiasError as err:  # beyond the reader's limits: the reason names the number
         raise LibraryError(f"variable {name}: default: {err.reason}") from None
     if number is None:
-        raise LibraryError(f"variable {name}: default {text!r} is not a number")
+        raise LibraryError(f"variable {name}: default {shown!r} is not a number")
     try:
         value = float(number)
     except OverflowError:
         value = math.inf
     if not math.isfinite(value):
-        raise LibraryError(f"variable {name}: default {text!r} is out of range (beyond a double)")
+        raise LibraryError(f"variable {name}: default {shown!r} is out of range (beyond a double)")
     return value
 
 

@@ -25,6 +25,7 @@ symbias.errors.LibraryError: mine.toml:37: variable IREF: default: number '1e400
 
 from __future__ import annotations
 
+import math
 from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
@@ -306,6 +307,8 @@ def _read_variables(items: list, lines: KeyLines, path: str) -> tuple[Variable, 
                 raise LibraryError(f"variable {name!r} is defined twice")
         default = str(item["default"])
         with _at(path, lines.of("default", "variables", index)):
+            if isinstance(item["default"], float) and not math.isfinite(item["default"]):
+                raise LibraryError(f"variable {name}: default {default} is not a finite number")
             value = check_default(default, name)
         if "expr" in item:
             with _at(path, lines.of("expr", "variables", index)):
