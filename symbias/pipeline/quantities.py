@@ -92,12 +92,7 @@ def default_quantities(target: Target) -> tuple[Quantity, ...]:
     """
     circuit, topology = target.circuit, target.topology
     if topology is not None and topology.roles.get("output"):
-        wanted = [Quantity("output_resistance", (topology.roles["output"],))]
-        transfer = topology.transfer(circuit)
-        if transfer is not None:
-            kind, output, source = transfer
-            wanted.append(Quantity(kind, (output, source)))
-        return tuple(wanted)
+        return tuple(Quantity(kind, arguments) for kind, arguments in topology.default_quantities(circuit))
     outputs = [e.name for e in circuit.elements_of("V") if e.name.lower() in _OUTPUT_NAMES]
     if not outputs:
         raise CircuitError("name a quantity: --rout PORT or --gain OUT/IN (no output element 'Vout' found)",

@@ -1,15 +1,15 @@
 """Write ``docs/topologies.md`` from the library files.
 
-A renderer of the library side (:class:`~symbias.library.Topology` ->
-Markdown): a summary table, then one section per topology with its
+A renderer of the library side, the last module of the package
+(:class:`~symbias.library.topology.Topology` -> Markdown): a summary table, then one section per topology with its
 description, netlist, roles, design variables, published formulas in LaTeX
 (with assumptions and source) and references.  The output depends only on the
 library files, so a test can check that the committed page is up to date.
 
 Command line::
 
-    python -m symbias.library_docs docs/topologies.md           # write
-    python -m symbias.library_docs docs/topologies.md --check   # exit 1 when out of date
+    python -m symbias.library.docs docs/topologies.md           # write
+    python -m symbias.library.docs docs/topologies.md --check   # exit 1 when out of date
 
 Examples
 --------
@@ -27,9 +27,14 @@ import sys
 from pathlib import Path
 from typing import Iterable
 
-from .symbols import latex_name
+from ..errors import SymbiasError
+from ..expressions import parse_expression
+from ..symbols import latex_name
+from .fields import FAMILIES
+from .search import load_library, shipped_dir
 
 __all__ = ["render_markdown", "formula_latex", "main"]
+
 
 def formula_latex(text: str) -> str:
     """LaTeX of a library formula string.
@@ -40,8 +45,6 @@ def formula_latex(text: str) -> str:
     '\\\\frac{\\\\beta r_{o}}{2}'
     """
     import sympy
-
-    from .expressions import parse_expression
 
     expr = parse_expression(text).to_sympy()
     return sympy.latex(expr, symbol_names={s: latex_name(s.name) for s in expr.free_symbols})
@@ -87,13 +90,11 @@ def _section(topology) -> list[str]:
 
 def render_markdown(topologies: Iterable) -> str:
     """The Markdown page of the given topologies (sorted by family, technology and identifier)."""
-    from .library import FAMILIES
-
     chosen = sorted(topologies, key=lambda t: (FAMILIES.index(t.family), t.technology, t.id))
     out = [
         "# Topology library",
         "",
-        "Generated from `topologies/*.toml` by `python -m symbias.library_docs docs/topologies.md`; do not edit",
+        "Generated from `topologies/*.toml` by `python -m symbias.library.docs docs/topologies.md`; do not edit",
         "by hand (a test checks that this page is up to date). The file format is described in",
         "[library-format.md](library-format.md).",
         "",
@@ -121,10 +122,7 @@ def _anchor(title: str) -> str:
 
 def main(argv: list[str] | None = None) -> int:
     """Write (or with ``--check`` compare) the library page; return the exit status."""
-    from .errors import SymbiasError
-    from .library import load_library, shipped_dir
-
-    parser = argparse.ArgumentParser(prog="python -m symbias.library_docs",
+    parser = argparse.ArgumentParser(prog="python -m symbias.library.docs",
                                      description="Generate docs/topologies.md from the topology library.")
     parser.add_argument("output", help="Markdown file to write, e.g. docs/topologies.md")
     parser.add_argument("--check", action="store_true", help="do not write; exit 1 if the file is out of date")
@@ -135,13 +133,17 @@ def main(argv: list[str] | None = None) -> int:
         print(str(err), file=sys.stderr)
         return 2
     path = Path(args.output)
-    if args.check:
-        current = path.read_text(encoding="utf-8") if path.exists() else ""
-        if current != page:
-            print(f"{path}: out of date; run python -m symbias.library_docs {path}", file=sys.stderr)
-            return 1
-        return 0
-    path.write_text(page, encoding="utf-8")
+    try:
+        if args.check:
+            current = path.read_text(encoding="utf-8") if path.exists() else ""
+            if current != page:
+                print(f"{path}: out of date; run python -m symbias.library.docs {path}", file=sys.stderr)
+                return 1
+            return 0
+        path.write_text(page, encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as err:
+        print(f"{path}: {getattr(err, 'strerror', None) or err}", file=sys.stderr)
+        return 2
     return 0
 
 
