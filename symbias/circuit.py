@@ -162,6 +162,13 @@ class Circuit:
         Declared matched groups (``.match NAME Q1 Q2 ...``), element keys.
     path : str or None
         File it was read from, for error messages.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nQ1 a a 0 QN\\n.model QN npn\\n")
+    >>> [d.name for d in c.devices], c.model_of(c.devices[0]).type, c.without("I1").nodes
+    (['Q1'], 'npn', ('0', 'a'))
     """
 
     title: str

@@ -152,6 +152,12 @@ def parse_netlist(text: str, path: str | None = None, *, check: bool = True) -> 
         On a syntax or value error, with ``path`` and ``line`` set.
     CircuitError
         On a structural fault found by validation.
+
+    Examples
+    --------
+    >>> c = parse_netlist("divider\\nV1 in 0 1\\nR1 in out 1k\\nR2 out 0 RB\\n")
+    >>> c.nodes, str(c.element("R2").value)
+    (('0', 'in', 'out'), 'RB')
     """
     try:
         return _parse(text, path, check)
@@ -166,6 +172,11 @@ def read_netlist(path: str | Path, *, check: bool = True) -> Circuit:
     ------
     NetlistError
         If the file cannot be read or parsed.
+
+    Examples
+    --------
+    >>> [d.name for d in read_netlist("examples/wilson_mirror.cir").devices]
+    ['Q1', 'Q2', 'Q3']
     """
     path = Path(path)
     try:

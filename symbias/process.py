@@ -139,6 +139,12 @@ class Process:
         Keyed by lower-case layer name.
     path : str or None
         File it came from.
+
+    Examples
+    --------
+    >>> p = load_process(demo_process_path())
+    >>> p.tnom, p.device("QN", "npn").type
+    (27.0, 'npn')
     """
 
     name: str

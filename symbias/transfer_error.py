@@ -232,6 +232,16 @@ def transfer_error(
     ------
     AnalysisError
         If the ideal transfer is zero or infinite.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.analyses import current_gain
+    >>> from symbias.devices.options import SmallSignalOptions
+    >>> mirror = parse_netlist("t\\nIref 0 in 1\\nQ1 in in 0 QN\\nQ2 out in 0 QN\\nVout out 0 0\\n.model QN npn\\n")
+    >>> error = transfer_error(current_gain(mirror, "Vout", "Iref", SmallSignalOptions(match=True, beta=True)))
+    >>> error.leading.expr, [c.name for c in error.causes]
+    (2/beta, ['finite beta', 'output conductance (Early effect)'])
     """
     ideal_formula = ideal_transfer(formula) if ideal is None else _as_formula(formula, ideal)
     if formula.ring.is_zero(ideal_formula.numerator):

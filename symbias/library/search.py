@@ -136,10 +136,33 @@ def find_topology(identifier: str, extra_dirs: Iterable[str | Path] = (),
     >>> find_topology("widlar-bandgap").roles["output"]
     'vref'
     """
-    library = load_library(extra_dirs=extra_dirs, environ=environ)
+    folders = library_dirs(extra_dirs, environ)
+    named = next((f / f"{identifier}.toml" for f in folders if (f / f"{identifier}.toml").is_file()), None)
+    if named is not None:
+        # the usual case, a file named after its identifier: read that file only, and check by a
+        # text scan (no parse) that no other file declares the same identifier
+        topology = load_topology(named)
+        if topology.id == identifier:
+            _check_declared_once(identifier, named, folders)
+            return topology
+    library = load_library(folders)
     if identifier in library:
         return library[identifier]
     raise LibraryError(_unknown(identifier, library), identifier)
+
+
+def _check_declared_once(identifier: str, chosen: Path, folders: Iterable[Path]) -> None:
+    """Raise when a file other than ``chosen`` declares ``identifier`` (read as text, not parsed)."""
+    import re
+
+    pattern = re.compile(rf"^\s*id\s*=\s*[\"']{re.escape(identifier)}[\"']\s*(#.*)?$", re.M)
+    for folder in folders:
+        if not folder.is_dir():
+            raise LibraryError("library folder does not exist", str(folder))
+        for file in sorted(folder.glob("*.toml")):
+            if file.resolve() != chosen.resolve() and pattern.search(file.read_text(encoding="utf-8")):
+                raise LibraryError(f"identifier {identifier!r} is already defined in {chosen}", str(file),
+                                   identifier_line(file.read_text(encoding="utf-8")))
 
 
 def _unknown(name: str, library: Mapping[str, Topology]) -> str:

@@ -83,6 +83,15 @@ def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions
 
     Matched symbols take the values of the first device of their group,
     normalised by its multiplier (see :func:`symbias.linear.network.bias_values`).
+
+    Examples
+    --------
+    >>> from symbias.devices.options import SmallSignalOptions
+    >>> from symbias.pipeline.targets import load_target, design_inputs
+    >>> target = load_target("bjt-simple-mirror")
+    >>> point = bias_point(target, design_inputs(target), SmallSignalOptions(match=True, beta=True))
+    >>> sorted(point.values)
+    ['IREF', 'beta', 'gm', 'ro', 'rpi']
     """
     from ..linear.network import bias_values
 

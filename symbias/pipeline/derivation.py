@@ -61,6 +61,13 @@ class DeriveRequest:
         For current gains: the error 1 - gain/ideal split by cause.
     at_bias : DesignInputs or None
         Solve the DC operating point with these inputs and evaluate there.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.quantities import Quantity
+    >>> request = DeriveRequest((Quantity("output_resistance", ("Vout",)),), approximate=True)
+    >>> request.tolerance, request.quantities[0].kind
+    (0.1, 'output_resistance')
     """
 
     quantities: tuple[Quantity, ...] = ()
@@ -135,6 +142,14 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
     ------
     CircuitError, AnalysisError, AssumptionError, ConvergenceError
         From the analyses, the approximation or the DC solve.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target, design_inputs
+    >>> target = load_target("examples/simple_mirror.cir")
+    >>> d = derive(target, DeriveRequest(at_bias=design_inputs(target)))
+    >>> d.results[0].formula.expr, round(d.results[0].value / 1e6, 3)
+    (ro_Q2, 3.05)
     """
     from ..analyses import QUANTITIES
 

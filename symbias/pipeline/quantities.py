@@ -47,6 +47,11 @@ class Quantity:
         A key of :data:`QUANTITY_KINDS`.
     arguments : tuple of str
         ``(port,)`` for an output resistance, ``(output, input)`` for a transfer.
+
+    Examples
+    --------
+    >>> Quantity("current_gain", ("Vout", "Iref")).arguments
+    ('Vout', 'Iref')
     """
 
     kind: str

@@ -55,6 +55,11 @@ class SweepRequest:
         Compliance: departure of the output current that counts.
     basis : {"tangent", "level"}
         Compliance: measure the departure from the tangent at mid-sweep or from its level.
+
+    Examples
+    --------
+    >>> SweepRequest("temp", -40, 125).varies_temperature
+    True
     """
 
     vary: str
@@ -133,6 +138,14 @@ def run_sweep(target: Target, inputs: DesignInputs, request: SweepRequest,
     ------
     CircuitError, ConvergenceError
         From the DC solve, an unknown source or an unknown output.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target, design_inputs
+    >>> target = load_target("examples/dc_bandgap_core.cir")
+    >>> result = run_sweep(target, design_inputs(target), SweepRequest("temp", -40, 125, 34))
+    >>> result.kind, result.output
+    ('temperature', 'V(vo)')
     """
     from ..dc import sweep as dcs
 

@@ -135,6 +135,12 @@ def design_inputs(target: Target, process: Any = None, temperature: float = 27.0
         When a process file cannot be read.
     UsageError
         When a value names no free symbol of the circuit or of the topology's variables.
+
+    Examples
+    --------
+    >>> inputs = design_inputs(load_target("examples/degenerated_mirror.cir"), values={"RE": 2e3}, temperature=85)
+    >>> dict(inputs.values), inputs.temperature
+    ({'RE': 2000.0}, 85.0)
     """
     from ..process import Process, load_process
 
