@@ -19,8 +19,7 @@ import warnings
 
 from . import __version__
 from .commands import COMMANDS
-from .errors import CircuitWarning
-from .errors import AnalysisError, SymbiasError
+from .errors import AnalysisError, SymbiasError, SymbiasWarning
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_ANALYSIS", "EXIT_USAGE"]
 
@@ -72,9 +71,11 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_USAGE
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("always", CircuitWarning)
+            warnings.simplefilter("always", SymbiasWarning)
             warnings.showwarning = _one_line_warning
-            return int(args.func(args) or EXIT_OK)
+            status = int(args.func(args) or EXIT_OK)
+        sys.stdout.flush()  # a full disk or a closed pipe shows here, inside the handlers below
+        return status
     except SymbiasError as err:
         if args.debug:
             raise
@@ -84,8 +85,24 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("interrupted", file=sys.stderr)
         return 130
-    except BrokenPipeError:  # pragma: no cover - e.g. piped into head
+    except BrokenPipeError:  # e.g. piped into head: the reader wanted no more
+        _silence_stdout()
         return EXIT_OK
+    except OSError as err:  # stdout itself cannot be written (a full disk, /dev/full)
+        _silence_stdout()
+        print(f"symbias: cannot write the output: {err.strerror or err}", file=sys.stderr)
+        return EXIT_ANALYSIS
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device so that the interpreter's final flush cannot fail again."""
+    import os
+
+    try:
+        null = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(null, sys.stdout.fileno())
+    except (OSError, ValueError):  # no file descriptor behind stdout (an embedding host): nothing to flush
+        return
 
 
 def run() -> None:
