@@ -26,6 +26,7 @@ __all__ = [
     "CircuitError",
     "AnalysisError",
     "ConvergenceError",
+    "InfiniteResultError",
     "ProcessError",
     "SpecError",
     "LibraryError",
@@ -90,6 +91,10 @@ class CircuitError(SymbiasError, ValueError):
 
 class AnalysisError(SymbiasError, ArithmeticError):
     """An analysis cannot be carried out (for example a singular network)."""
+
+
+class InfiniteResultError(AnalysisError):
+    """A quantity is infinite (an open port: an infinite output resistance); the reason says where."""
 
 
 class ConvergenceError(AnalysisError):

@@ -31,11 +31,12 @@ from .bias import BiasPoint, bias_point, operating_point_of, states_of
 from .derivation import Derivation, DeriveRequest, DerivedQuantity, derive
 from .quantities import QUANTITY_KINDS, Quantity, default_quantities, parse_quantity
 from .sweeps import SweepRequest, SweepResult, default_output, run_sweep
-from .targets import DesignInputs, Target, design_inputs, load_target
+from .targets import DesignInputs, Target, design_inputs, load_target, target_from_text
 
 __all__ = [
     "Target",
     "load_target",
+    "target_from_text",
     "DesignInputs",
     "design_inputs",
     "Quantity",

@@ -39,17 +39,20 @@ class BiasPoint:
         Symbol name -> value (device small-signal values and netlist numbers).
     inputs : DesignInputs
         What it was solved with.
+    notes : tuple of str
+        Where matched devices differ at the operating point (their shared symbols are then a poor fit).
     """
 
     point: Any
     values: Mapping[str, float]
     inputs: DesignInputs
+    notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "values", MappingProxyType(dict(self.values)))
 
     def __reduce__(self):
-        return (BiasPoint, (self.point, dict(self.values), self.inputs))
+        return (BiasPoint, (self.point, dict(self.values), self.inputs, self.notes))
 
     @property
     def temperature(self) -> float:
@@ -93,9 +96,17 @@ def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions
     >>> sorted(point.values)
     ['IREF', 'beta', 'gm', 'ro', 'rpi']
     """
-    from ..linear.network import bias_values
+    import warnings
 
+    from ..errors import BiasWarning
+    from ..linear.network import bias_values, matched_spread
+
+    options = options or SmallSignalOptions()
     point = operating_point_of(target, inputs)
+    per_device = point.small_signal_values()
     numbers = dict(inputs.values)
-    numbers.update(bias_values(target.circuit, point.small_signal_values(), options or SmallSignalOptions()))
-    return BiasPoint(point, numbers, inputs)
+    numbers.update(bias_values(target.circuit, per_device, options))
+    notes = tuple(matched_spread(target.circuit, per_device, options))
+    for note in notes:
+        warnings.warn(f"{target.where}: {note}", BiasWarning, stacklevel=2)
+    return BiasPoint(point, numbers, inputs, notes)

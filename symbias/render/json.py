@@ -132,11 +132,17 @@ def derivation_record(derivation) -> dict[str, Any]:
     """
     records = []
     for result in derivation.results:
+        if result.formula is None:
+            records.append({"quantity": result.quantity.kind, "arguments": list(result.quantity.arguments),
+                            "exact": "oo", "infinite": True, "reason": result.infinite})
+            continue
         record = formula_record(result.formula, result.approximation, result.sensitivities, result.sensitivity_point)
         if result.transfer_error is not None:
             record["transfer_error"] = _transfer_error_record(result.transfer_error)
         if derivation.bias is not None:
             record["at_bias"] = result.value
+            if result.approximation_error_at_bias is not None:
+                record["approx_error_at_bias"] = result.approximation_error_at_bias
         records.append(record)
     header = {"circuit": derivation.target.title, "source": derivation.target.where}
     if len(records) == 1:
@@ -192,6 +198,8 @@ def topology_record(description) -> dict[str, Any]:
     for index, (result, leading) in enumerate(zip(description.derivation.results, description.leading)):
         lead = None if leading is None else {"expr": str(leading.expr), "error": float(leading.error),
                                              "assumptions": list(leading.statements)}
-        record["derived"].append({"role": "rout" if index == 0 else "transfer", **formula_record(result.formula),
-                                  "options": options, "leading_order": lead})
+        fields = formula_record(result.formula) if result.formula is not None else {
+            "quantity": result.quantity.kind, "exact": "oo", "infinite": True, "reason": result.infinite}
+        record["derived"].append({"role": "rout" if index == 0 else "transfer", **fields, "options": options,
+                                  "leading_order": lead})
     return record

@@ -115,6 +115,9 @@ def derivation_latex(derivation) -> str:
     """
     lines = []
     for result in derivation.results:
+        if result.formula is None:
+            lines.append(rf"{_QUANTITY_SYMBOLS.get(result.quantity.kind, 'X')} = \infty")
+            continue
         lines.append(formula_latex(result.formula))
         if result.approximation is not None:
             lines.append(approximation_latex(result.approximation))

@@ -87,6 +87,10 @@ def derivation_markdown(derivation) -> str:
     """
     sections = [f"## {derivation.target.title}\n"]
     for result in derivation.results:
+        if result.formula is None:
+            sections.append(f"### {result.quantity.kind.replace('_', ' ')} at {'/'.join(result.quantity.arguments)}"
+                            f"\n\nInfinite: {result.infinite}\n")
+            continue
         sections.append(formula_markdown(result.formula, result.approximation, result.sensitivities))
         error = result.transfer_error
         if error is not None:

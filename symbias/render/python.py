@@ -93,4 +93,4 @@ def python_source(formula: Formula, approximation: Any = None, name: str | None 
 
 def derivation_python(derivation) -> str:
     """One Python module text with a numpy function per derived quantity (and its approximation)."""
-    return "\n\n".join(python_source(r.formula, r.approximation) for r in derivation.results)
+    return "\n\n".join(python_source(r.formula, r.approximation) for r in derivation.results if r.formula is not None)

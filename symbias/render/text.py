@@ -155,14 +155,29 @@ def _error_rows(error) -> list[tuple[str, str]]:
     return rows
 
 
+def _infinite_panel(result) -> Any:
+    from rich.panel import Panel
+    from rich.text import Text
+
+    kind = result.quantity.kind
+    label = f"{kind.replace('_', ' ')} at {'/'.join(result.quantity.arguments)}"
+    return Panel(Text.assemble((f"{label} = infinite\n", "bold"), result.infinite or ""),
+                 title=kind.replace("_", " "), expand=False)
+
+
 def derivation_renderables(derivation) -> list[Any]:
     """Header, one panel per quantity (with its approximation, value and error rows), sensitivity tables."""
     out: list[Any] = [f"[bold]{derivation.target.title}[/bold]  ({derivation.target.where})"]
     bias = derivation.bias
     for result in derivation.results:
+        if result.formula is None:
+            out.append(_infinite_panel(result))
+            continue
         rows = approximation_rows(result.approximation) if result.approximation is not None else []
         if bias is not None:
             rows.insert(0, ("at the operating point", value_text(result, bias.temperature)))
+        if result.approximation_error_at_bias is not None:
+            rows.append(("error at the operating point", f"{100 * result.approximation_error_at_bias:.3g} %"))
         if result.transfer_error is not None:
             rows += _error_rows(result.transfer_error)
         out.append(formula_panel(result.formula, rows))
