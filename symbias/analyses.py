@@ -218,12 +218,10 @@ def output_resistance(
     if where.removed:
         _check_removable(circuit, where.removed)
     reduced = circuit.without(where.removed) if where.removed else circuit
-    holder = _holding_source(reduced, a, b, port)
-    notes: tuple[str, ...] = ()
+    holder, notes = _holding_source(reduced, a, b, port)
     if holder is not None:
         # a node held by a voltage source has zero resistance; the designer means the node with it removed
         reduced = reduced.without(holder)
-        notes = (f"{holder} removed: it held the port at a fixed voltage",)
     network = expand(reduced, options)
     for node in (a, b):
         if node != GROUND and node not in network.nodes:
@@ -243,21 +241,20 @@ def output_resistance(
     return replace(formula, assumptions=formula.assumptions + notes) if notes else formula
 
 
-def _holding_source(circuit: Circuit, a: str, b: str, port: str) -> str | None:
-    """The independent voltage source that holds port ``a,b`` at a fixed voltage, or None.
+def _holding_source(circuit: Circuit, a: str, b: str, port: str) -> tuple[str | None, tuple[str, ...]]:
+    """The independent voltage source to remove from port ``a,b``, and a note for the assumptions.
 
-    Raises
-    ------
-    CircuitError
-        When the port is held by a chain of several sources or by a controlled source.
+    A port held by one independent source is seen with that source removed; a
+    port held by several, or by a controlled source (an ideal amplifier's
+    output), keeps them, and the note names them: its resistance is 0.
     """
     path = _source_path(circuit, a, b)
     if not path:
-        return None
+        return None, ()
     if len(path) == 1 and circuit.element(path[0]).kind == "V":
-        return path[0]
-    raise CircuitError(f"port {port!r} is held at a fixed voltage by {', '.join(path)}: its resistance is 0; "
-                       "name one of them as the port to see the resistance with it removed", path=circuit.path)
+        return path[0], (f"{path[0]} removed: it held the port at a fixed voltage",)
+    return None, (f"the port is held at a fixed voltage by {', '.join(path)} (ideal sources): its resistance is 0; "
+                  "name one of them as the port to see the resistance with it removed",)
 
 
 def _source_path(circuit: Circuit, a: str, b: str) -> list[str]:
