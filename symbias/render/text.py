@@ -149,9 +149,11 @@ def value_text(result, temperature: float) -> str:
 
 
 def _error_rows(error) -> list[tuple[str, str]]:
-    rows = [("error 1 - gain/ideal", f"~ {error.leading.text}  (worst error "
-                                     f"{100 * error.leading.error:.3g} %; ideal {error.ideal.expr})")]
-    rows += [(f"  from {cause.name}", f"~ {cause.leading.text}") for cause in error.causes]
+    from ..readable import readable_text
+
+    rows = [("error 1 - gain/ideal", f"~ {readable_text(error.leading.expr)}  (worst error "
+                                     f"{100 * error.leading.error:.3g} %; ideal {readable_text(error.ideal.expr)})")]
+    rows += [(f"  from {cause.name}", f"~ {readable_text(cause.leading.expr)}") for cause in error.causes]
     return rows
 
 
