@@ -177,7 +177,7 @@ def parse_spec(text: str, path: str | None = None) -> Spec:
     data, lines = read_toml(text, where, SpecError)
     for table in data:
         if table not in _TABLES or not isinstance(data[table], dict):
-            raise SpecError(f"unknown table [{table}] (tables: {', '.join(_TABLES)})", where, lines.of(table))
+            raise SpecError(f"unknown table [{table}] (tables: {', '.join(_TABLES)})", where, lines.of("", table))
     for table in ("block", "supply"):
         if table not in data:
             raise SpecError(f"missing table [{table}]", where, 1)
@@ -274,7 +274,7 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     block, supply, limits = values["block"], values["supply"], values["limits"]
     if "family" not in block:
         raise SpecError("[block] family: missing (current-source, current-mirror or reference)", where,
-                        lines.of("block"))
+                        lines.of("", "block"))
     if block["family"] not in FAMILIES:
         raise SpecError(f"[block] family: {block['family']!r} is not one of {', '.join(FAMILIES)}", where,
                         lines.of("family", "block"))
@@ -284,10 +284,10 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     wanted = "voltage" if block["family"] == "reference" else "current"
     if wanted not in block:
         raise SpecError(f"[block] {wanted}: missing (the target {wanted} of a {block['family']})", where,
-                        lines.of("block"))
+                        lines.of("", "block"))
     for key in ("min", "max"):
         if key not in supply:
-            raise SpecError(f"[supply] {key}: missing (V)", where, lines.of("supply"))
+            raise SpecError(f"[supply] {key}: missing (V)", where, lines.of("", "supply"))
     if supply["min"] > supply["max"]:
         raise SpecError(f"[supply] min {supply['min']:g} V is above max {supply['max']:g} V", where,
                         lines.of("min", "supply"))
@@ -296,5 +296,5 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
         raise SpecError(f"[limits] headroom_max {headroom:g} V leaves no room below the lowest supply "
                         f"{supply['min']:g} V", where, lines.of("headroom_max", "limits"))
     if ("noise_max" in limits) != ("noise_frequency" in limits):
-        raise SpecError("[limits] noise_max and noise_frequency go together", where, lines.of("limits"))
+        raise SpecError("[limits] noise_max and noise_frequency go together", where, lines.of("", "limits"))
     return Block(**block), Supply(supply["min"], supply["max"]), Limits(**limits)
