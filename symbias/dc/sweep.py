@@ -1,7 +1,7 @@
 """DC sweeps and their metrics: compliance, temperature coefficient, line sensitivity.
 
 Fourth step of the DC side: a circuit solved at many values of one source or
-of the temperature, each point warm-started from the previous one, gives a
+of the temperature, each point warm-started from the previous ones, gives a
 :class:`Sweep`; free functions turn a sweep into design metrics:
 
 * :func:`compliance` - for an output-voltage sweep, the output voltage where
@@ -36,16 +36,21 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from types import MappingProxyType
 from typing import Callable, Mapping
 
 import numpy as np
 
 from ..circuit import Circuit
+from ..devices.nonlinear import working_regions
 from ..errors import CircuitError, ConvergenceError, SymbiasError
 from ..process import Process
-from .newton import DcOptions, Solution, device_voltages, solve, state_of
+from .newton import DcOptions
 from .operating_point import OperatingPoint, report
+from .report import report_batch
+from .results import OperatingPoints
+from .stepping import BatchSolution, solve, solve_batch
 from .system import DcSystem, build_system
 
 __all__ = [
@@ -62,8 +67,9 @@ __all__ = [
     "ACTIVE_REGIONS",
 ]
 
-#: Regions in which a device acts as a current source (BJT active, MOS saturation).
-ACTIVE_REGIONS = frozenset({"active", "saturation"})
+#: Regions in which a device acts as a current source (BJT active, MOS saturation): the union of
+#: the device models' working regions.
+ACTIVE_REGIONS = working_regions()
 
 Progress = Callable[[int, int], None]
 
@@ -90,7 +96,7 @@ def sweep_points(start: float, stop: float, points: int) -> np.ndarray:
     return np.linspace(float(start), float(stop), int(points))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Sweep:
     """A solved sweep: one operating point per swept value.
 
@@ -100,17 +106,26 @@ class Sweep:
         The swept source as written, or ``"temp"``.
     values : ndarray
         The swept values (V, A or degC).
-    points : tuple of OperatingPoint
-        One per value.
+    results : OperatingPoints
+        Every point, as arrays over the sweep.
     """
 
     variable: str
     values: np.ndarray
-    points: tuple[OperatingPoint, ...]
+    results: OperatingPoints
     circuit: Circuit = field(repr=False)
     process: Process | None = field(default=None, repr=False)
     temperature: float = 27.0
     system_values: Mapping[str, float] = field(default_factory=dict, repr=False)
+
+    @cached_property
+    def points(self) -> tuple[OperatingPoint, ...]:
+        """One :class:`OperatingPoint` per swept value (built on first use)."""
+        return self.results.points()
+
+    def point(self, i: int) -> OperatingPoint:
+        """The operating point at swept value ``i``."""
+        return self.results.point(i)
 
     def probe(self, name: str) -> np.ndarray:
         """Values of ``V(node)``, ``I(element)``, a node name or an element name along the sweep.
@@ -124,22 +139,22 @@ class Sweep:
         """
         kind, key = _parse_probe(name, self.circuit)
         if kind == "V":
-            return np.array([p.voltage(key) for p in self.points])
-        return np.array([p.current(key) for p in self.points])
+            return self.results.voltage(key).copy()
+        return self.results.current(key).copy()
 
     def regions(self, device: str) -> tuple[str, ...]:
         """Region of ``device`` at each point."""
-        return tuple(p.device(device).region for p in self.points)
+        return tuple(str(r) for r in self.results.device(device).region)
 
     def to_dict(self, outputs: tuple[str, ...] = ()) -> dict:
         """Plain-dict form for JSON: the swept values, node voltages, branch currents, regions, outputs."""
-        first = self.points[0]
+        results = self.results
         return {
             "variable": self.variable,
             "values": self.values.tolist(),
-            "node_voltages": {n: [p.node_voltages[n] for p in self.points] for n in first.node_voltages},
-            "branch_currents": {n: [p.branch_currents[n] for p in self.points] for n in first.branch_currents},
-            "regions": {d: list(self.regions(d)) for d in first.devices},
+            "node_voltages": {n: v.tolist() for n, v in results.node_voltages.items()},
+            "branch_currents": {n: v.tolist() for n, v in results.branch_currents.items()},
+            "regions": {d: list(self.regions(d)) for d in results.devices},
             "outputs": {o: self.probe(o).tolist() for o in outputs},
         }
 
@@ -157,30 +172,36 @@ def _parse_probe(name: str, circuit: Circuit) -> tuple[str, str]:
                        path=circuit.path)
 
 
-def _run(systems, overrides_of, values: np.ndarray, variable: str, circuit: Circuit, process, temperature,
-         system_values, guess, options: DcOptions, progress: Progress | None) -> Sweep:
-    points: list[OperatingPoint] = []
-    previous: Solution | None = None
-    before: Solution | None = None
-    for i, value in enumerate(values):
-        system = systems(value)
-        start = previous if before is None else _predict(system, before, previous)
-        try:
-            solution = solve(system, overrides=overrides_of(value), start=start,
-                             guess=guess if previous is None else None, options=options)
-        except ConvergenceError as err:
-            raise ConvergenceError(f"{variable} = {value:g}: {err.reason}", err.path, err.line) from None
-        points.append(report(system, solution))
-        before, previous = previous, solution
+def _run(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None, variable: str,
+         circuit: Circuit, process, temperature, system_values, guess, options: DcOptions,
+         progress: Progress | None) -> Sweep:
+    solution = _sequential(system, grid, overrides, variable, guess, options, progress)
+    results = report_batch(system, solution, overrides)
+    if results.errors:
+        raise results.errors[0][1]
+    return Sweep(variable, grid, results, circuit, process, temperature, MappingProxyType(dict(system_values or {})))
+
+
+def _sequential(system: DcSystem, grid: np.ndarray, overrides, variable: str, guess, options: DcOptions,
+                progress: Progress | None) -> BatchSolution:
+    """Every point in turn, Newton started from the linear extrapolation of the last two solutions."""
+    found = []
+    for i, value in enumerate(grid):
+        start = None
+        if found:
+            start = found[-1].x if len(found) == 1 else 2.0 * found[-1].x - found[-2].x
+        point = np.array([i])
+        solution = solve_batch(system, overrides={k: v[point] for k, v in (overrides or {}).items()}, start=start,
+                               guess=guess if not found else None, options=options, index=point)
+        if solution.errors:
+            error = solution.errors[0][1]
+            raise ConvergenceError(f"{variable} = {value:g}: {error.reason}", error.path, error.line)
+        found.append(solution)
         if progress is not None:
-            progress(i + 1, len(values))
-    return Sweep(variable, values, tuple(points), circuit, process, temperature, MappingProxyType(dict(system_values or {})))
-
-
-def _predict(system: DcSystem, before: Solution, previous: Solution) -> Solution:
-    """Linear extrapolation from the last two points of an equally spaced sweep: Newton's first guess."""
-    x = 2.0 * previous.x - before.x
-    return Solution(x, state_of(system, device_voltages(system, x)), 0, "predicted")
+            progress(i + 1, len(grid))
+    return BatchSolution(np.concatenate([f.x for f in found]),
+                         tuple(np.concatenate(s) for s in zip(*(f.state for f in found))),
+                         np.concatenate([f.iterations for f in found]), tuple(m for f in found for m in f.methods))
 
 
 def sweep_source(circuit: Circuit, source: str, start: float, stop: float, points: int = 201, *,
@@ -189,7 +210,7 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
                  options: DcOptions = DcOptions(), progress: Progress | None = None) -> Sweep:
     """Sweep the DC value of an independent source (``Vout`` for compliance, ``VDD`` for line sensitivity).
 
-    Each point starts Newton from the previous solution.
+    Each point starts Newton from the previous solutions.
 
     Raises
     ------
@@ -202,18 +223,18 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
     system = build_system(circuit, process, temperature, values)
     system.source_value(source)
     name = circuit.element(source).name
-    return _run(lambda _: system, lambda v: {source: float(v)}, grid, name, circuit, process, temperature,
-                values, guess, options, progress)
+    return _run(system, grid, {source: grid}, name, circuit, process, temperature, values, guess, options,
+                progress)
 
 
 def sweep_temperature(circuit: Circuit, start: float, stop: float, points: int = 201, *,
                       process: Process | None = None, values: Mapping[str, float] | None = None,
                       guess: Mapping[str, float] | None = None, options: DcOptions = DcOptions(),
                       progress: Progress | None = None) -> Sweep:
-    """Sweep the temperature (degC): every model and resistor is re-evaluated at each point."""
+    """Sweep the temperature (degC): every model and resistor is evaluated at each point (one batched system)."""
     grid = sweep_points(start, stop, points)
-    return _run(lambda t: build_system(circuit, process, float(t), values), lambda _: None, grid, "temp",
-                circuit, process, float(start), values, guess, options, progress)
+    system = build_system(circuit, process, grid, values)
+    return _run(system, grid, None, "temp", circuit, process, float(start), values, guess, options, progress)
 
 
 # -- compliance --------------------------------------------------------------------------------------
@@ -317,7 +338,7 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
     def current_fails(point: OperatingPoint, v: float) -> bool:
         return (slope_line(v) - abs(_probe_point(point, probe, sweep.circuit))) / abs(iref) > fraction
 
-    reference_point = sweep.points[ref]
+    reference_point = sweep.point(ref)
 
     def region_fails(point: OperatingPoint, v: float) -> bool:
         return _changed(point, reference_point) is not None
@@ -327,10 +348,9 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
     for side, step in (("low", down), ("high", up)):
         j = _first_bad(shortfall > fraction, ref, step)
         edges[f"current_{side}"] = None if j is None else _bisect(sweep, j - step, j, current_fails, options)
-        flags = np.array([_changed(p, reference_point) is not None for p in sweep.points])
-        k = _first_bad(flags, ref, step)
+        k = _first_bad(_region_changes(sweep, reference_point), ref, step)
         edges[f"region_{side}"] = None if k is None else _bisect(sweep, k - step, k, region_fails, options)
-        edges[f"device_{side}"] = None if k is None else _changed(sweep.points[k], reference_point)
+        edges[f"device_{side}"] = None if k is None else _changed(sweep.point(k), reference_point)
     by_low, by_high = edges["current_low"], edges["current_high"]
     region_low, region_high = edges["region_low"], edges["region_high"]
     device_low, device_high = edges["device_low"], edges["device_high"]
@@ -340,9 +360,18 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
 
 def _changed(point: OperatingPoint, reference: OperatingPoint) -> str | None:
     for name, dev in reference.devices.items():
-        if dev.region in ACTIVE_REGIONS and point.devices[name].region != dev.region:
+        if dev.working and point.devices[name].region != dev.region:
             return f"{name} ({point.devices[name].region})"
     return None
+
+
+def _region_changes(sweep: Sweep, reference: OperatingPoint) -> np.ndarray:
+    """At each point: has a device that works as a current source at the reference left its region?"""
+    flags = np.zeros(len(sweep.values), dtype=bool)
+    for name, dev in reference.devices.items():
+        if dev.working:
+            flags |= sweep.results.devices[name].region != dev.region
+    return flags
 
 
 def _probe_point(point: OperatingPoint, name: str, circuit: Circuit) -> float:
@@ -353,7 +382,7 @@ def _probe_point(point: OperatingPoint, name: str, circuit: Circuit) -> float:
 def _bisect(sweep: Sweep, good: int, bad: int, fails, options: DcOptions, tol: float = 1e-5) -> float:
     """Refine by bisection, warm-starting each solve, the swept value where ``fails(point, value)`` turns true."""
     system = build_system(sweep.circuit, sweep.process, sweep.temperature, sweep.system_values)
-    start = sweep.points[good]
+    start = sweep.point(good)
     x_good, x_bad = float(sweep.values[good]), float(sweep.values[bad])
     for _ in range(40):
         if abs(x_bad - x_good) <= tol:
