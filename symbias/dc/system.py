@@ -401,7 +401,8 @@ def _banks(stamps: list[tuple[Element, DcStamp]], index: dict, context: StampCon
     for items in grouped.values():
         model = items[0][1].model
         numbers = model.numbers(stack_parameters([d.params for _, d in items]), celsius)
-        polarity = np.broadcast_to(np.asarray(numbers.polarity, dtype=float), (1, len(items)))[0].copy()
+        # polarity never varies over the batch: the first row holds it
+        polarity = np.broadcast_to(np.atleast_2d(np.asarray(numbers.polarity, dtype=float))[:1], (1, len(items)))[0].copy()
         banks.append(DeviceBank(
             model=model,
             names=tuple(e.name for e, _ in items),

@@ -268,9 +268,12 @@ def _limit(t: DiodeAtTemperature, new: np.ndarray, old: np.ndarray) -> np.ndarra
     vd, previous = new[..., 0], old[..., 0]
     # in breakdown SPICE limits the voltage beyond the breakdown knee, with the breakdown emission voltage
     near = t.breakdown & (vd < np.minimum(0.0, -t.xbv + 10.0 * t.vtebrk))
-    beyond = pn_limit(-(vd + t.xbv), -(previous + t.xbv), t.vtebrk, t.vcrit)
     forward = pn_limit(vd, previous, t.vte, t.vcrit)
-    return np.where(near, -(beyond + t.xbv), forward)[..., None]
+    if not near.any():
+        return forward[..., None]
+    with np.errstate(invalid="ignore"):  # devices without breakdown have xbv = inf; masked out below
+        beyond = -(pn_limit(-(vd + t.xbv), -(previous + t.xbv), t.vtebrk, t.vcrit) + t.xbv)
+    return np.where(near, beyond, forward)[..., None]
 
 
 def _start(t: DiodeAtTemperature, kind: str, raw: np.ndarray) -> np.ndarray:
