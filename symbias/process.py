@@ -14,6 +14,7 @@ cards (the card's own parameters win).  The grammar is documented once, in
     IS = 1e-16 ...             # BJT: IS BF VAF NF XTI EG XTB (BR, NR optional)
                                # MOS: VTO KP LAMBDA GAMMA PHI TCV BEX
                                # diode: IS N XTI EG (RS, BV, IBV, CJO, ... optional)
+                               # mismatch: AVT ABETA (MOS), AIS (BJT, diode), optional
 
     [resistors.RPOLY]
     sheet = 50                 # ohm per square

@@ -28,7 +28,7 @@ ROOT = Path(__file__).resolve().parents[1]
 DECKS = ROOT / "tests" / "decks"
 #: Solver modules: they may know devices only through symbias.devices.nonlinear.
 SOLVER_MODULES = ("system", "newton", "stepping", "report", "results", "operating_point", "solutions", "sweep",
-                  "headroom")
+                  "continuation", "mismatch", "headroom")
 DEVICE_WORDS = {"bjt", "mos", "vbe", "vbc", "vgs", "vds", "vbs", "npn", "pnp", "nmos", "pmos", "diode", "vcesat"}
 
 

@@ -145,6 +145,22 @@ def _floor(system: DcSystem, options: DcOptions) -> np.ndarray:
     return floor
 
 
+#: Multiply-adds per matrix product below which OpenBLAS stays on one thread (its default threshold):
+#: the products here are tiny per sample, gain nothing from threads and, on a busy machine, lose much.
+_BLOCK_WORK = 1 << 18
+
+
+def _product(values: np.ndarray, scatter: np.ndarray) -> np.ndarray:
+    """``values @ scatter`` in row blocks small enough for single-threaded BLAS."""
+    rows = max(1, _BLOCK_WORK // max(1, scatter.size))
+    if values.shape[0] <= rows:
+        return values @ scatter
+    out = np.empty((values.shape[0], scatter.shape[1]))
+    for start in range(0, values.shape[0], rows):
+        np.matmul(values[start:start + rows], scatter, out=out[start:start + rows])
+    return out
+
+
 def _assemble(system: DcSystem, matrix: np.ndarray, numbers: tuple, rhs: np.ndarray, volts: Sequence[np.ndarray],
               gshunt: np.ndarray | None, count: int) -> tuple[np.ndarray, np.ndarray]:
     """The linearised nodal equations ``a x = b`` of ``count`` samples at device controls ``volts``."""
@@ -157,13 +173,14 @@ def _assemble(system: DcSystem, matrix: np.ndarray, numbers: tuple, rhs: np.ndar
         for bank, own, v in zip(system.banks, numbers, volts):
             current, jacobian = bank.model.evaluate(own, v)
             jacobians.append(jacobian.reshape(count, -1))
-            currents.append((current - np.matmul(jacobian, v[..., None])[..., 0]).reshape(count, -1))
+            linear = current.copy()
+            for c in range(v.shape[-1]):  # minus the Jacobian times the controls, one control at a time
+                linear -= jacobian[..., c] * v[..., None, c]
+            currents.append(linear.reshape(count, -1))
         flat = jacobians[0] if len(jacobians) == 1 else np.concatenate(jacobians, axis=1)
-        values = flat[:, layout.matrix_gather] * layout.matrix_sign
-        a.reshape(count, -1)[:, layout.matrix_targets] += np.add.reduceat(values, layout.matrix_starts, axis=1)
+        a.reshape(count, -1)[:, layout.matrix_targets] += _product(flat, layout.matrix_scatter)
         flat = currents[0] if len(currents) == 1 else np.concatenate(currents, axis=1)
-        values = flat[:, layout.rhs_gather] * layout.rhs_sign
-        b[:, layout.rhs_targets] += np.add.reduceat(values, layout.rhs_starts, axis=1)
+        b[:, layout.rhs_targets] += _product(flat, layout.rhs_scatter)
     if gshunt is not None:
         diagonal = np.arange(system.node_count)
         a[:, diagonal, diagonal] += gshunt[:, None]
@@ -238,37 +255,17 @@ def newton(system: DcSystem, rhs: np.ndarray, x: np.ndarray, state: Sequence[np.
     xe = np.concatenate([x, np.zeros((count, 1))], axis=1)
     matrix, numbers = rows_of(system.matrix, index), bank_numbers(system, index)
     rows = rhs
-    previous = None if state is None else [np.asarray(s, dtype=float) for s in state]
-    if start_kind is not None:
-        raw = [_controls(bank, xe) for bank in system.banks]
-        started = [bank.model.start(num, start_kind, r) for bank, num, r in zip(system.banks, numbers, raw)]
-        previous = started if fresh is None else [np.where(fresh[:, None, None], s, r) for s, r in zip(started, raw)]
+    previous = _first_state(system, numbers, xe, state, start_kind, fresh)
     floor = _floor(system, options)
     worst = np.zeros(count, dtype=int)
-    ratio_worst = step = np.zeros(count)
+    step = np.zeros(count)
     for iteration in range(1, max_iterations + 1):
-        raw = [_controls(bank, xe) for bank in system.banks]
-        if iteration == 1 and previous is not None:
-            volts = previous
-        elif previous is None:
-            volts = raw
-        else:
-            volts = [bank.model.limit(num, r, p) for bank, num, r, p in zip(system.banks, numbers, raw, previous)]
-        limited = np.zeros(len(active), dtype=bool)
-        for v, r in zip(volts, raw):
-            limited |= np.any(np.abs(v - r) > 1e-15, axis=(1, 2))
+        volts, limited = _linearisation(system, numbers, xe, previous, iteration)
         a, b = _assemble(system, matrix, numbers, rows, volts, shunt, len(active))
         x_new, ok = _linear_solve(a, b)
-        ok &= np.all(np.isfinite(x_new), axis=1)
         x_old = xe[:, :n]
-        with np.errstate(invalid="ignore", over="ignore"):  # a non-finite step fails its sample below
-            dx = np.abs(x_new - x_old)
-            ratio = dx / (options.reltol * np.maximum(np.abs(x_new), np.abs(x_old)) + floor)
-        new_worst = np.argmax(ratio, axis=1) if n else np.zeros(len(active), dtype=int)
-        picked = np.arange(len(active))
-        step = dx[picked, new_worst] if n else np.zeros(len(active))
-        ratio_worst = ratio[picked, new_worst] if n else np.zeros(len(active))
-        done = ok & (iteration > 1) & ~limited & (ratio_worst <= 1.0)
+        ok, new_worst, step, small = _measure(x_new, x_old, ok, floor, options)
+        done = ok & (iteration > 1) & ~limited & small
         failed = ~ok
         if failed.any():
             record.finish(active[failed], x_old[failed], [v[failed] for v in volts], iteration, worst[failed],
@@ -291,6 +288,47 @@ def newton(system: DcSystem, rhs: np.ndarray, x: np.ndarray, state: Sequence[np.
     if active.size:
         record.finish(active, xe[:, :n], previous, max_iterations, worst, step, False)
     return record.attempt()
+
+
+def _first_state(system: DcSystem, numbers: tuple, xe: np.ndarray, state, start_kind: str | None,
+                 fresh: np.ndarray | None):
+    """Device controls for the first linearisation: given, a starting kind's, or None (those ``xe`` gives)."""
+    previous = None if state is None else [np.asarray(s, dtype=float) for s in state]
+    if start_kind is None:
+        return previous
+    raw = [_controls(bank, xe) for bank in system.banks]
+    started = [bank.model.start(num, start_kind, r) for bank, num, r in zip(system.banks, numbers, raw)]
+    return started if fresh is None else [np.where(fresh[:, None, None], s, r) for s, r in zip(started, raw)]
+
+
+def _linearisation(system: DcSystem, numbers: tuple, xe: np.ndarray, previous, iteration: int):
+    """Controls to linearise at (limited against the previous ones) and which samples were limited."""
+    raw = [_controls(bank, xe) for bank in system.banks]
+    if iteration == 1 and previous is not None:
+        volts = previous
+    elif previous is None:
+        volts = raw
+    else:
+        volts = [bank.model.limit(num, r, p) for bank, num, r, p in zip(system.banks, numbers, raw, previous)]
+    limited = np.zeros(xe.shape[0], dtype=bool)
+    for v, r in zip(volts, raw):
+        if v is not r:
+            limited |= (np.abs(v - r) > 1e-15).reshape(xe.shape[0], -1).any(axis=1)
+    return volts, limited
+
+
+def _measure(x_new: np.ndarray, x_old: np.ndarray, ok: np.ndarray, floor: np.ndarray, options: DcOptions):
+    """Finite steps, the unknown that moved most against its tolerance, how far, and whether all moved little."""
+    count, n = x_new.shape
+    ok = ok & np.all(np.isfinite(x_new), axis=1)
+    if not n:
+        return ok, np.zeros(count, dtype=int), np.zeros(count), np.ones(count, dtype=bool)
+    with np.errstate(invalid="ignore", over="ignore"):  # a non-finite step fails its sample
+        dx = np.abs(x_new - x_old)
+        ratio = dx / (options.reltol * np.maximum(np.abs(x_new), np.abs(x_old)) + floor)
+    worst = np.argmax(ratio, axis=1)
+    picked = np.arange(count)
+    return ok, worst, dx[picked, worst], ratio[picked, worst] <= 1.0
 
 
 def residual(system: DcSystem, x: np.ndarray, rhs: np.ndarray | None = None) -> np.ndarray:

@@ -34,7 +34,17 @@ from .system import DcSystem
 __all__ = ["report_batch", "violations"]
 
 
-def violations(system: DcSystem, x: np.ndarray) -> dict[int, CircuitError]:
+def _evaluated(system: DcSystem, x: np.ndarray) -> list[tuple]:
+    """(bank, numbers, controls, currents) of every bank at unknowns ``x`` ``(A, n)``."""
+    out = []
+    for bank, numbers, v in zip(system.banks, bank_numbers(system, np.arange(x.shape[0])), device_controls(system, x)):
+        with np.errstate(invalid="ignore", over="ignore"):
+            currents, _ = bank.model.evaluate(numbers, v)
+        out.append((bank, numbers, v, currents))
+    return out
+
+
+def violations(system: DcSystem, x: np.ndarray, evaluated: list | None = None) -> dict[int, CircuitError]:
     """Samples whose solution lies outside what a device model describes, with the first reason each.
 
     Devices are checked in bank order, each device's conditions in the order
@@ -42,10 +52,8 @@ def violations(system: DcSystem, x: np.ndarray) -> dict[int, CircuitError]:
     ``BVEBO``, a terminal current above 1 A; a MOS bulk junction forward-biased).
     """
     found: dict[int, CircuitError] = {}
-    controls = device_controls(system, x)
-    numbers = bank_numbers(system, np.arange(x.shape[0]))
-    for bank, own, v in zip(system.banks, numbers, controls):
-        checks = bank.model.check(own, v)
+    for bank, numbers, v, currents in evaluated or _evaluated(system, x):
+        checks = bank.model.check(numbers, v, currents)
         if not checks:
             continue
         masks = np.stack([np.broadcast_to(c.mask, v.shape[:2]) for c in checks], axis=-1)  # (A, ndev, checks)
@@ -76,15 +84,14 @@ def _element_currents(system: DcSystem, xe: np.ndarray, overrides: Mapping[str, 
     return out
 
 
-def _devices(system: DcSystem, x: np.ndarray, xe: np.ndarray) -> dict[str, DeviceOperatingPoints]:
-    count = x.shape[0]
+def _devices(evaluated: list, xe: np.ndarray) -> dict[str, DeviceOperatingPoints]:
+    count = xe.shape[0]
     devices = {}
-    controls = device_controls(system, x)
-    for bank, numbers, v in zip(system.banks, bank_numbers(system, np.arange(count)), controls):
+    for bank, numbers, v, currents in evaluated:
         model = bank.model
-        currents, _ = model.evaluate(numbers, v)
         signed = bank.polarity[:, None] * currents + 0.0
-        described = model.describe(numbers, v)
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            described = model.describe(numbers, v)
         for j, name in enumerate(bank.names):
             pins = bank.pins[j]
             devices[name] = DeviceOperatingPoints(
@@ -110,7 +117,8 @@ def report_batch(system: DcSystem, solution: BatchSolution,
     x = solution.x
     count = x.shape[0]
     errors: dict[int, SymbiasError] = dict(solution.errors)
-    for sample, error in violations(system, x).items():
+    evaluated = _evaluated(system, x)
+    for sample, error in violations(system, x, evaluated).items():
         errors.setdefault(sample, error)
     for sample in np.flatnonzero(~np.all(np.isfinite(x), axis=1)):
         errors.setdefault(int(sample), AnalysisError("the DC solution is not finite", path=system.circuit.path))
@@ -125,10 +133,11 @@ def report_batch(system: DcSystem, solution: BatchSolution,
     branches = {e.name: xe[:, system.branch_index[e.key]].copy() for e in circuit.elements
                 if e.key in system.branch_index}
     elements = _element_currents(system, xe, overrides)
-    devices = _devices(system, x if not bad.size else xe[:, :-1], xe)
-    for table in (elements,):
-        for value in table.values():
-            value[bad] = np.nan
+    if bad.size:  # failed samples: every device quantity nan too
+        evaluated = _evaluated(system, xe[:, :-1])
+    devices = _devices(evaluated, xe)
+    for value in elements.values():
+        value[bad] = np.nan
     ordered = {e.name: devices[e.name] for e in circuit.devices}
     return OperatingPoints(
         title=circuit.title,

@@ -1,8 +1,9 @@
 """DC sweeps and their metrics: compliance, temperature coefficient, line sensitivity.
 
 Fourth step of the DC side: a circuit solved at many values of one source or
-of the temperature, each point warm-started from the previous ones, gives a
-:class:`Sweep`; free functions turn a sweep into design metrics:
+of the temperature - all points in a few batched solves, each point
+warm-started from solved neighbours (:mod:`symbias.dc.continuation`) - gives
+a :class:`Sweep`; free functions turn a sweep into design metrics:
 
 * :func:`compliance` - for an output-voltage sweep, the output voltage where
   the current source stops being one, found two ways: where the output
@@ -44,13 +45,14 @@ import numpy as np
 
 from ..circuit import Circuit
 from ..devices.nonlinear import working_regions
-from ..errors import CircuitError, ConvergenceError, SymbiasError
+from ..errors import CircuitError, SymbiasError
 from ..process import Process
+from .continuation import solve_sweep
 from .newton import DcOptions
 from .operating_point import OperatingPoint, report
 from .report import report_batch
 from .results import OperatingPoints
-from .stepping import BatchSolution, solve, solve_batch
+from .stepping import solve
 from .system import DcSystem, build_system
 
 __all__ = [
@@ -175,33 +177,12 @@ def _parse_probe(name: str, circuit: Circuit) -> tuple[str, str]:
 def _run(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None, variable: str,
          circuit: Circuit, process, temperature, system_values, guess, options: DcOptions,
          progress: Progress | None) -> Sweep:
-    solution = _sequential(system, grid, overrides, variable, guess, options, progress)
+    solution = solve_sweep(system, grid, overrides, guess=guess, options=options, progress=progress,
+                           variable=variable)
     results = report_batch(system, solution, overrides)
     if results.errors:
         raise results.errors[0][1]
     return Sweep(variable, grid, results, circuit, process, temperature, MappingProxyType(dict(system_values or {})))
-
-
-def _sequential(system: DcSystem, grid: np.ndarray, overrides, variable: str, guess, options: DcOptions,
-                progress: Progress | None) -> BatchSolution:
-    """Every point in turn, Newton started from the linear extrapolation of the last two solutions."""
-    found = []
-    for i, value in enumerate(grid):
-        start = None
-        if found:
-            start = found[-1].x if len(found) == 1 else 2.0 * found[-1].x - found[-2].x
-        point = np.array([i])
-        solution = solve_batch(system, overrides={k: v[point] for k, v in (overrides or {}).items()}, start=start,
-                               guess=guess if not found else None, options=options, index=point)
-        if solution.errors:
-            error = solution.errors[0][1]
-            raise ConvergenceError(f"{variable} = {value:g}: {error.reason}", error.path, error.line)
-        found.append(solution)
-        if progress is not None:
-            progress(i + 1, len(grid))
-    return BatchSolution(np.concatenate([f.x for f in found]),
-                         tuple(np.concatenate(s) for s in zip(*(f.state for f in found))),
-                         np.concatenate([f.iterations for f in found]), tuple(m for f in found for m in f.methods))
 
 
 def sweep_source(circuit: Circuit, source: str, start: float, stop: float, points: int = 201, *,
@@ -210,7 +191,8 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
                  options: DcOptions = DcOptions(), progress: Progress | None = None) -> Sweep:
     """Sweep the DC value of an independent source (``Vout`` for compliance, ``VDD`` for line sensitivity).
 
-    Each point starts Newton from the previous solutions.
+    Every point is solved in a few batches, each point starting from solved
+    neighbours (:mod:`symbias.dc.continuation`).
 
     Raises
     ------

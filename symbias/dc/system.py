@@ -123,21 +123,18 @@ class StampLayout:
     """Where the companion-model entries of every bank land, precomputed once per system.
 
     The Jacobians of all banks, each flattened to ``(A, ndev*T*C)`` and
-    concatenated, are gathered at ``matrix_gather``, multiplied by
-    ``matrix_sign`` (+1 at a control's plus terminal, -1 at its minus), and
-    summed per destination with ``np.add.reduceat`` at ``matrix_starts`` into
-    the flat matrix positions ``matrix_targets`` (ground entries dropped).
-    The right-hand side likewise from the flattened ``(A, ndev*T)`` linearised
-    currents, signed by minus the polarity.
+    concatenated, times ``matrix_scatter`` (+1 where an entry lands at a
+    control's plus terminal, -1 at its minus, summed over entries landing on
+    one position) give the additions at the flat matrix positions
+    ``matrix_targets`` (ground dropped): one small matrix product per Newton
+    step for the whole batch.  The right-hand side likewise from the
+    flattened ``(A, ndev*T)`` linearised currents, signed by minus the
+    polarity.
     """
 
-    matrix_gather: np.ndarray
-    matrix_sign: np.ndarray
-    matrix_starts: np.ndarray
+    matrix_scatter: np.ndarray
     matrix_targets: np.ndarray
-    rhs_gather: np.ndarray
-    rhs_sign: np.ndarray
-    rhs_starts: np.ndarray
+    rhs_scatter: np.ndarray
     rhs_targets: np.ndarray
 
 
@@ -416,18 +413,17 @@ def _banks(stamps: list[tuple[Element, DcStamp]], index: dict, context: StampCon
     return tuple(banks)
 
 
-def _reduction(destinations: np.ndarray, gather: np.ndarray, sign: np.ndarray):
-    """Entries sorted by destination: gather, sign, segment starts and unique targets."""
-    order = np.argsort(destinations, kind="stable")
-    ordered = destinations[order]
-    starts = np.flatnonzero(np.r_[True, ordered[1:] != ordered[:-1]]) if ordered.size else np.zeros(0, dtype=int)
-    targets = ordered[starts] if ordered.size else np.zeros(0, dtype=int)
-    return gather[order], sign[order], starts, targets
+def _scatter(destinations: list[int], sources: list[int], signs: list[float], width: int):
+    """Dense signed map from flattened entries (``width`` of them) to their unique destinations."""
+    targets, column = np.unique(np.array(destinations, dtype=int), return_inverse=True)
+    scatter = np.zeros((width, targets.size))
+    np.add.at(scatter, (np.array(sources, dtype=int), column), np.array(signs, dtype=float))
+    return scatter, targets
 
 
 def _layout(banks: tuple[DeviceBank, ...], n: int) -> StampLayout:
-    matrix = ([], [], [])  # destination, gather, sign
-    rhs = ([], [], [])
+    matrix: tuple[list, list, list] = ([], [], [])  # destination, source, sign
+    rhs: tuple[list, list, list] = ([], [], [])
     jacobian_offset = current_offset = 0
     for bank in banks:
         ndev, terminals = bank.terminals.shape
@@ -437,18 +433,14 @@ def _layout(banks: tuple[DeviceBank, ...], n: int) -> StampLayout:
                 row = bank.terminals[d, t]
                 if row >= n:
                     continue
-                rhs[0].append(row)
-                rhs[1].append(current_offset + d * terminals + t)
-                rhs[2].append(-bank.polarity[d])
+                for target, value in zip(rhs, (row, current_offset + d * terminals + t, -bank.polarity[d])):
+                    target.append(value)
                 for c in range(controls):
                     flat = jacobian_offset + (d * terminals + t) * controls + c
                     for column, sign in ((bank.plus[d, c], 1.0), (bank.minus[d, c], -1.0)):
                         if column < n:
-                            matrix[0].append(row * n + column)
-                            matrix[1].append(flat)
-                            matrix[2].append(sign)
+                            for target, value in zip(matrix, (row * n + column, flat, sign)):
+                                target.append(value)
         jacobian_offset += ndev * terminals * controls
         current_offset += ndev * terminals
-    as_arrays = [(np.array(dest, dtype=int), np.array(gather, dtype=int), np.array(sign, dtype=float))
-                 for dest, gather, sign in (matrix, rhs)]
-    return StampLayout(*_reduction(*as_arrays[0]), *_reduction(*as_arrays[1]))
+    return StampLayout(*_scatter(*matrix, jacobian_offset), *_scatter(*rhs, current_offset))

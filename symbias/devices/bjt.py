@@ -44,7 +44,7 @@ import numpy as np
 
 from .dc_context import DcStamp, DeviceStamp
 from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation, pn_limit,
-                        safe_exp, safe_exp_slope)
+                        safe_exp, safe_exp_and_slope, safe_exp_slope)
 from .temperature import kelvin, thermal_voltage
 
 __all__ = [
@@ -206,20 +206,22 @@ def bjt_currents(vbe, vbc, t: BjtAtTemperature) -> BjtCurrents:
     vbc = np.asarray(vbc, dtype=float)
     vtf = t.nf * t.vt
     vtr = t.nr * t.vt
-    xf, xr = vbe / vtf, vbc / vtr
-    icc = t.is_ * (safe_exp(xf) - 1.0)
-    iec = t.is_ * (safe_exp(xr) - 1.0)
-    gcc = t.is_ * safe_exp_slope(xf) / vtf
-    gec = t.is_ * safe_exp_slope(xr) / vtr
+    forward, forward_slope = safe_exp_and_slope(vbe / vtf)
+    reverse, reverse_slope = safe_exp_and_slope(vbc / vtr)
+    icc = t.is_ * (forward - 1.0)
+    iec = t.is_ * (reverse - 1.0)
+    gcc = t.is_ * forward_slope / vtf
+    gec = t.is_ * reverse_slope / vtr
     early = 1.0 - vbc * t.inv_vaf  # 1/qb
-    ic = (icc - iec) * early - iec / t.br
+    transport = icc - iec
+    ic = transport * early - iec / t.br
     ib = icc / t.bf + iec / t.br + GMIN * (vbe + vbc)
     m = t.mult
     return BjtCurrents(
         ic=m * ic,
         ib=m * ib,
         dic_dvbe=m * gcc * early,
-        dic_dvbc=m * (-gec * early - (icc - iec) * t.inv_vaf - gec / t.br),
+        dic_dvbc=m * (-gec * early - transport * t.inv_vaf - gec / t.br),
         dib_dvbe=m * (gcc / t.bf + GMIN),
         dib_dvbc=m * (gec / t.br + GMIN),
         icc=m * icc,
@@ -396,11 +398,10 @@ def _describe(t: BjtAtTemperature, controls: np.ndarray) -> Description:
     return Description(bjt_region(c, vbc, t), bjt_small_signal(c), {"vcesat": bjt_vcesat(vbe, t)})
 
 
-def _check(t: BjtAtTemperature, controls: np.ndarray) -> list[Violation]:
+def _check(t: BjtAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:
     vbe = controls[..., 0]
-    c = bjt_currents(vbe, controls[..., 1], t)
     bvebo = np.broadcast_to(t.bvebo, vbe.shape)
-    worst = np.maximum(np.abs(c.ic), np.abs(c.ib))
+    worst = np.maximum(np.abs(currents[..., 0]), np.abs(currents[..., 1]))
     return [
         Violation(vbe < -bvebo, -vbe, "{name}: emitter-base junction reversed by {value:.3g} V, beyond BVEBO = "
                   "{limit:g} V (the model has no breakdown); check the sources driving it", bvebo),

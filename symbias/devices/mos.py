@@ -380,15 +380,15 @@ def _describe(t: MosAtTemperature, controls: np.ndarray) -> Description:
     return Description(mos_region(c, vds, t), mos_small_signal(c, t), limits)
 
 
-def _check(t: MosAtTemperature, controls: np.ndarray) -> list[Violation]:
+def _check(t: MosAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:
     vds, vbs = controls[..., 1], controls[..., 2]
-    c = mos_currents(controls[..., 0], vds, vbs, t)
+    drain = currents[..., 0]
     forward = np.maximum(vbs, vbs - vds)
     return [
         Violation(forward > BULK_FORWARD_LIMIT, forward,
                   "{name}: bulk junction forward-biased by {value:.3g} V (bulk diodes are not modelled); tie the "
                   "bulk to the lowest (nmos) or highest (pmos) supply"),
-        Violation(np.abs(c.id) > MAX_CURRENT, c.id, "{name}: implausible drain current {value:.3g} A"),
+        Violation(np.abs(drain) > MAX_CURRENT, drain, "{name}: implausible drain current {value:.3g} A"),
     ]
 
 
