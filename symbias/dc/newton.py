@@ -171,7 +171,7 @@ def _assemble(system: DcSystem, matrix: np.ndarray, numbers: tuple, rhs: np.ndar
     if volts and layout.matrix_targets.size:
         jacobians, currents = [], []
         for bank, own, v in zip(system.banks, numbers, volts):
-            current, jacobian = bank.model.evaluate(own, v)
+            current, jacobian = bank.model.evaluate(own, v)  # current terminals only
             jacobians.append(jacobian.reshape(count, -1))
             linear = current.copy()
             for c in range(v.shape[-1]):  # minus the Jacobian times the controls, one control at a time
@@ -349,9 +349,9 @@ def residual(system: DcSystem, x: np.ndarray, rhs: np.ndarray | None = None) -> 
     index = np.arange(count)
     for bank, numbers in zip(system.banks, bank_numbers(system, index)):
         current, _ = bank.model.evaluate(numbers, _controls(bank, xe))
-        signed = bank.polarity[:, None] * current  # (A, ndev, T)
-        for t in range(bank.terminals.shape[1]):
-            np.add.at(out, (slice(None), bank.terminals[:, t]), signed[:, :, t])
+        signed = bank.polarity[:, None] * current  # (A, ndev, R)
+        for r, t in enumerate(bank.model.current_terminals):
+            np.add.at(out, (slice(None), bank.terminals[:, t]), signed[:, :, r])
     return out[0, :n] if single else out[:, :n]
 
 

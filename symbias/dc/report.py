@@ -89,7 +89,8 @@ def _devices(evaluated: list, xe: np.ndarray) -> dict[str, DeviceOperatingPoints
     devices = {}
     for bank, numbers, v, currents in evaluated:
         model = bank.model
-        signed = bank.polarity[:, None] * currents + 0.0
+        signed = np.zeros(currents.shape[:2] + (len(model.terminals),))  # terminals that carry none stay 0
+        signed[..., list(model.current_terminals)] = bank.polarity[:, None] * currents + 0.0
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
             described = model.describe(numbers, v)
         for j, name in enumerate(bank.names):

@@ -122,13 +122,13 @@ class DeviceBank:
 class StampLayout:
     """Where the companion-model entries of every bank land, precomputed once per system.
 
-    The Jacobians of all banks, each flattened to ``(A, ndev*T*C)`` and
+    The Jacobians of all banks, each flattened to ``(A, ndev*R*C)`` and
     concatenated, times ``matrix_scatter`` (+1 where an entry lands at a
     control's plus terminal, -1 at its minus, summed over entries landing on
     one position) give the additions at the flat matrix positions
     ``matrix_targets`` (ground dropped): one small matrix product per Newton
     step for the whole batch.  The right-hand side likewise from the
-    flattened ``(A, ndev*T)`` linearised currents, signed by minus the
+    flattened ``(A, ndev*R)`` linearised currents, signed by minus the
     polarity.
     """
 
@@ -426,17 +426,18 @@ def _layout(banks: tuple[DeviceBank, ...], n: int) -> StampLayout:
     rhs: tuple[list, list, list] = ([], [], [])
     jacobian_offset = current_offset = 0
     for bank in banks:
-        ndev, terminals = bank.terminals.shape
+        ndev = bank.size
+        terminals = len(bank.model.current_terminals)
         controls = len(bank.model.controls)
         for d in range(ndev):
-            for t in bank.model.current_terminals:
+            for r, t in enumerate(bank.model.current_terminals):
                 row = bank.terminals[d, t]
                 if row >= n:
                     continue
-                for target, value in zip(rhs, (row, current_offset + d * terminals + t, -bank.polarity[d])):
+                for target, value in zip(rhs, (row, current_offset + d * terminals + r, -bank.polarity[d])):
                     target.append(value)
                 for c in range(controls):
-                    flat = jacobian_offset + (d * terminals + t) * controls + c
+                    flat = jacobian_offset + (d * terminals + r) * controls + c
                     for column, sign in ((bank.plus[d, c], 1.0), (bank.minus[d, c], -1.0)):
                         if column < n:
                             for target, value in zip(matrix, (row * n + column, flat, sign)):

@@ -154,10 +154,15 @@ class BjtAtTemperature:
     vt: object
     mult: object
     bvebo: object = 6.0
+    vcrit_forward: object = None
+    vcrit_reverse: object = None
 
-    def vcrit(self):
+    def vcrit(self, reverse: bool = False):
         """Junction voltage above which Newton steps are limited (SPICE's critical voltage)."""
-        vtn = self.nf * self.vt
+        stored = self.vcrit_reverse if reverse else self.vcrit_forward
+        if stored is not None:
+            return stored
+        vtn = (self.nr if reverse else self.nf) * self.vt
         return vtn * np.log(vtn / (math.sqrt(2.0) * self.is_))
 
 
@@ -170,9 +175,11 @@ def stack_bjts(items: list[BjtAtTemperature]) -> BjtAtTemperature:
     >>> stack_bjts([m.at(27.0), m.at(27.0, 2)]).mult
     array([1., 2.])
     """
-    return BjtAtTemperature(**{
-        f.name: np.array([getattr(item, f.name) for item in items], dtype=float) for f in fields(BjtAtTemperature)
-    })
+    def column(name: str):
+        values = [getattr(item, name) for item in items]
+        return None if any(v is None for v in values) else np.array(values, dtype=float)
+
+    return BjtAtTemperature(**{f.name: column(f.name) for f in fields(BjtAtTemperature)})
 
 
 @dataclass(frozen=True)
@@ -208,24 +215,24 @@ def bjt_currents(vbe, vbc, t: BjtAtTemperature) -> BjtCurrents:
     vtr = t.nr * t.vt
     forward, forward_slope = safe_exp_and_slope(vbe / vtf)
     reverse, reverse_slope = safe_exp_and_slope(vbc / vtr)
-    icc = t.is_ * (forward - 1.0)
-    iec = t.is_ * (reverse - 1.0)
-    gcc = t.is_ * forward_slope / vtf
-    gec = t.is_ * reverse_slope / vtr
+    scaled = t.mult * t.is_  # the multiplier folded in once, on the per-device numbers
+    icc = scaled * (forward - 1.0)
+    iec = scaled * (reverse - 1.0)
+    gcc = (scaled / vtf) * forward_slope
+    gec = (scaled / vtr) * reverse_slope
     early = 1.0 - vbc * t.inv_vaf  # 1/qb
     transport = icc - iec
-    ic = transport * early - iec / t.br
-    ib = icc / t.bf + iec / t.br + GMIN * (vbe + vbc)
-    m = t.mult
+    reverse_base = iec / t.br
+    gmin = t.mult * GMIN
     return BjtCurrents(
-        ic=m * ic,
-        ib=m * ib,
-        dic_dvbe=m * gcc * early,
-        dic_dvbc=m * (-gec * early - transport * t.inv_vaf - gec / t.br),
-        dib_dvbe=m * (gcc / t.bf + GMIN),
-        dib_dvbc=m * (gec / t.br + GMIN),
-        icc=m * icc,
-        iec=m * iec,
+        ic=transport * early - reverse_base,
+        ib=icc / t.bf + reverse_base + gmin * (vbe + vbc),
+        dic_dvbe=gcc * early,
+        dic_dvbc=-gec * early - transport * t.inv_vaf - gec / t.br,
+        dib_dvbe=gcc / t.bf + gmin,
+        dib_dvbc=gec / t.br + gmin,
+        icc=icc,
+        iec=iec,
     )
 
 
@@ -243,8 +250,7 @@ def bjt_limit(v_new, v_old, t: BjtAtTemperature, reverse: bool = False):
     True
     """
     vtn = (t.nr if reverse else t.nf) * t.vt
-    vcrit = vtn * np.log(vtn / (math.sqrt(2.0) * t.is_))
-    return pn_limit(v_new, v_old, vtn, vcrit)
+    return pn_limit(v_new, v_old, vtn, t.vcrit(reverse))
 
 
 def bjt_region(c: BjtCurrents, vbc, t: BjtAtTemperature) -> np.ndarray:
@@ -340,9 +346,11 @@ def bjt_numbers(params: Mapping[str, object], celsius) -> BjtAtTemperature:
     with np.errstate(divide="ignore"):
         inv_vaf = np.where(finite, 1.0 / np.where(finite, vaf, 1.0), 0.0)
     beta_factor = ratio ** np.asarray(params["XTB"], dtype=float)
+    is_t = params["IS"] * np.exp((ratio - 1.0) * params["EG"] / vt + params["XTI"] * np.log(ratio))
+    vtf, vtr = params["NF"] * vt, params["NR"] * vt
     return BjtAtTemperature(
         polarity=np.asarray(params["polarity"], dtype=float),
-        is_=params["IS"] * np.exp((ratio - 1.0) * params["EG"] / vt + params["XTI"] * np.log(ratio)),
+        is_=is_t,
         bf=params["BF"] * beta_factor,
         br=params["BR"] * beta_factor,
         nf=np.asarray(params["NF"], dtype=float),
@@ -351,6 +359,8 @@ def bjt_numbers(params: Mapping[str, object], celsius) -> BjtAtTemperature:
         vt=vt,
         mult=np.asarray(params["mult"], dtype=float),
         bvebo=np.asarray(params["BVEBO"], dtype=float),
+        vcrit_forward=vtf * np.log(vtf / (math.sqrt(2.0) * is_t)),
+        vcrit_reverse=vtr * np.log(vtr / (math.sqrt(2.0) * is_t)),
     )
 
 
@@ -369,7 +379,9 @@ def _stamp(model: DeviceModel, element, context) -> DcStamp:
 
 def _evaluate(t: BjtAtTemperature, controls: np.ndarray):
     c = bjt_currents(controls[..., 0], controls[..., 1], t)
-    currents = np.stack([c.ic, c.ib, -(c.ic + c.ib)], axis=-1)
+    currents = np.empty(controls.shape[:-1] + (3,))
+    currents[..., 0], currents[..., 1] = c.ic, c.ib
+    currents[..., 2] = -(c.ic + c.ib)
     jacobian = np.empty(currents.shape + (2,))
     jacobian[..., 0, 0], jacobian[..., 0, 1] = c.dic_dvbe, c.dic_dvbc
     jacobian[..., 1, 0], jacobian[..., 1, 1] = c.dib_dvbe, c.dib_dvbc

@@ -172,7 +172,11 @@ class MosCurrents:
 def _threshold(vbs, t: MosAtTemperature):
     """VTH and dVTH/dvbs; for vbs > 0 the level-1 linear continuation of the square root."""
     sqrt_phi = np.sqrt(t.phi)
+    if not np.any(t.gamma):
+        return t.vto + np.zeros_like(vbs), np.zeros_like(vbs)
     root = np.sqrt(np.maximum(t.phi - np.minimum(vbs, 0.0), 0.0))
+    if not (vbs > 0.0).any() and (root > 0).all():  # the usual case: bulk reverse-biased or at the source
+        return t.vto + t.gamma * (root - sqrt_phi), t.gamma * (-0.5 / root)
     linear = sqrt_phi - np.maximum(vbs, 0.0) / (2.0 * sqrt_phi)
     sarg = np.where(vbs <= 0.0, root, np.maximum(linear, 0.0))
     dsarg = np.where(vbs <= 0.0, -0.5 / np.where(root > 0, root, 1.0), np.where(linear > 0, -0.5 / sqrt_phi, 0.0))
@@ -225,6 +229,9 @@ def mos_currents(vgs, vds, vbs, t: MosAtTemperature) -> MosCurrents:
     vds = np.asarray(vds, dtype=float)
     vbs = np.asarray(vbs, dtype=float)
     flip = vds < 0.0
+    if not flip.any():
+        i_m, gm_m, gds_m, gmb_m, vth, vov, forward = _forward_mode(vgs, vds, vbs, t)
+        return MosCurrents(i_m, gm_m, gds_m, gmb_m, vth, vov, forward, flip)
     # in reverse mode the drain acts as source: vgs' = vgd, vds' = -vds, vbs' = vbd
     vgs_m = np.where(flip, vgs - vds, vgs)
     vds_m = np.abs(vds)
@@ -352,12 +359,13 @@ def _stamp(model: DeviceModel, element, context) -> DcStamp:
 
 
 def _evaluate(t: MosAtTemperature, controls: np.ndarray):
+    """Drain and source currents (the gate and bulk carry none) and their Jacobian."""
     c = mos_currents(controls[..., 0], controls[..., 1], controls[..., 2], t)
-    currents = np.zeros(controls.shape[:-1] + (4,))
-    currents[..., 0], currents[..., 2] = c.id, -c.id
-    jacobian = np.zeros(currents.shape + (3,))
+    currents = np.empty(controls.shape[:-1] + (2,))
+    currents[..., 0], currents[..., 1] = c.id, -c.id
+    jacobian = np.empty(currents.shape + (3,))
     jacobian[..., 0, 0], jacobian[..., 0, 1], jacobian[..., 0, 2] = c.did_dvgs, c.did_dvds, c.did_dvbs
-    jacobian[..., 2, :] = -jacobian[..., 0, :]
+    jacobian[..., 1, :] = -jacobian[..., 0, :]
     return currents, jacobian
 
 

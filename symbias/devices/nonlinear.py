@@ -9,8 +9,9 @@ module that builds one ``DeviceModel`` and names it as the kind's ``dc`` hook
 Shapes: a device model is evaluated for a *bank* of ``ndev`` devices of its
 kind at once, over ``A`` batch samples.  Per-device numbers are arrays of
 shape ``(B, ndev)`` with ``B`` either 1 (the same for every sample) or the
-batch size; controlling voltages have shape ``(A, ndev, C)``, terminal
-currents ``(A, ndev, T)`` and their Jacobian ``(A, ndev, T, C)``.
+batch size; controlling voltages have shape ``(A, ndev, C)``, the currents
+into the terminals that carry current ``(A, ndev, R)`` (R of them, see
+:attr:`DeviceModel.current_terminals`) and their Jacobian ``(A, ndev, R, C)``.
 
 Frames: the model works in its own frame (npn, nmos); a device of the other
 polarity has its controlling voltages and currents negated by the solver,
@@ -209,7 +210,8 @@ class DeviceModel:
     controls : tuple of (str, int, int)
         Controlling voltages in the device frame: name, plus and minus terminal.
     current_terminals : tuple of int
-        Terminals that can carry current (the MOS gate and bulk carry none).
+        Terminals that can carry current (the MOS gate and bulk carry none); the
+        others' currents are zero.
     output : str
         Terminal whose current is the device's output current.
     voltages : tuple of (str, int, int)
@@ -222,7 +224,8 @@ class DeviceModel:
         ``numbers(params, celsius)``: stacked parameters ``(B, ndev)`` -> the
         model's numbers at temperature (a frozen dataclass of arrays).
     evaluate : callable
-        ``evaluate(numbers, controls) -> (currents, jacobian)``, exact derivatives.
+        ``evaluate(numbers, controls) -> (currents, jacobian)``: into the current
+        terminals, in their order, with exact derivatives.
     limit : callable
         ``limit(numbers, new, old) -> controls``: junction limiting of a Newton update.
     start : callable
