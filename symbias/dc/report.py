@@ -35,12 +35,15 @@ __all__ = ["report_batch", "violations"]
 
 
 def _evaluated(system: DcSystem, x: np.ndarray) -> list[tuple]:
-    """(bank, numbers, controls, currents) of every bank at unknowns ``x`` ``(A, n)``."""
+    """(bank, numbers, controls, currents, description) of every bank at unknowns ``x`` ``(A, n)``."""
     out = []
     for bank, numbers, v in zip(system.banks, bank_numbers(system, np.arange(x.shape[0])), device_controls(system, x)):
-        with np.errstate(invalid="ignore", over="ignore"):
-            currents, _ = bank.model.evaluate(numbers, v)
-        out.append((bank, numbers, v, currents))
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            described = bank.model.describe(numbers, v)
+            currents = described.currents
+            if currents is None:
+                currents, _ = bank.model.evaluate(numbers, v)
+        out.append((bank, numbers, v, currents, described))
     return out
 
 
@@ -52,7 +55,7 @@ def violations(system: DcSystem, x: np.ndarray, evaluated: list | None = None) -
     ``BVEBO``, a terminal current above 1 A; a MOS bulk junction forward-biased).
     """
     found: dict[int, CircuitError] = {}
-    for bank, numbers, v, currents in evaluated or _evaluated(system, x):
+    for bank, numbers, v, currents, _ in evaluated or _evaluated(system, x):
         checks = bank.model.check(numbers, v, currents)
         if not checks:
             continue
@@ -87,12 +90,10 @@ def _element_currents(system: DcSystem, xe: np.ndarray, overrides: Mapping[str, 
 def _devices(evaluated: list, xe: np.ndarray) -> dict[str, DeviceOperatingPoints]:
     count = xe.shape[0]
     devices = {}
-    for bank, numbers, v, currents in evaluated:
+    for bank, numbers, v, currents, described in evaluated:
         model = bank.model
         signed = np.zeros(currents.shape[:2] + (len(model.terminals),))  # terminals that carry none stay 0
         signed[..., list(model.current_terminals)] = bank.polarity[:, None] * currents + 0.0
-        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
-            described = model.describe(numbers, v)
         for j, name in enumerate(bank.names):
             pins = bank.pins[j]
             devices[name] = DeviceOperatingPoints(

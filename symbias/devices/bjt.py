@@ -77,6 +77,8 @@ BJT_DEFAULTS: dict[str, float] = {
 #: fraction of the collector current the active-region law would give.
 SATURATION_FRACTION = 0.01
 
+_REGIONS = np.array(["active", "saturation", "cutoff", "reverse"])
+
 #: Parameters the model reads (``AIS`` is the mismatch coefficient, see :func:`bjt_mismatch`).
 BJT_PARAMETERS = ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO", "AIS")
 
@@ -274,7 +276,8 @@ def bjt_region(c: BjtCurrents, vbc, t: BjtAtTemperature) -> np.ndarray:
     cutoff = (np.abs(c.icc) < ION_MIN * 1.0) & (np.abs(c.iec) < ION_MIN * 1.0)
     reverse = c.iec > c.icc
     saturated = deficit > SATURATION_FRACTION * forward
-    return np.where(cutoff, "cutoff", np.where(reverse, "reverse", np.where(saturated, "saturation", "active")))
+    codes = np.where(cutoff, 2, np.where(reverse, 3, np.where(saturated, 1, 0)))
+    return _REGIONS[codes]
 
 
 def bjt_small_signal(c: BjtCurrents) -> dict[str, np.ndarray]:
@@ -377,11 +380,16 @@ def _stamp(model: DeviceModel, element, context) -> DcStamp:
     return DcStamp(device=DeviceStamp(model, type_, (c, b, e), (c, b, e), numbers), off=((e, b, 0.0), (b, e, 0.0)))
 
 
-def _evaluate(t: BjtAtTemperature, controls: np.ndarray):
-    c = bjt_currents(controls[..., 0], controls[..., 1], t)
-    currents = np.empty(controls.shape[:-1] + (3,))
+def _terminal_currents(c: BjtCurrents) -> np.ndarray:
+    currents = np.empty(np.shape(c.ic) + (3,))
     currents[..., 0], currents[..., 1] = c.ic, c.ib
     currents[..., 2] = -(c.ic + c.ib)
+    return currents
+
+
+def _evaluate(t: BjtAtTemperature, controls: np.ndarray):
+    c = bjt_currents(controls[..., 0], controls[..., 1], t)
+    currents = _terminal_currents(c)
     jacobian = np.empty(currents.shape + (2,))
     jacobian[..., 0, 0], jacobian[..., 0, 1] = c.dic_dvbe, c.dic_dvbc
     jacobian[..., 1, 0], jacobian[..., 1, 1] = c.dib_dvbe, c.dib_dvbc
@@ -407,7 +415,8 @@ def _start(t: BjtAtTemperature, kind: str, raw: np.ndarray) -> np.ndarray:
 def _describe(t: BjtAtTemperature, controls: np.ndarray) -> Description:
     vbe, vbc = controls[..., 0], controls[..., 1]
     c = bjt_currents(vbe, vbc, t)
-    return Description(bjt_region(c, vbc, t), bjt_small_signal(c), {"vcesat": bjt_vcesat(vbe, t)})
+    return Description(bjt_region(c, vbc, t), bjt_small_signal(c), {"vcesat": bjt_vcesat(vbe, t)},
+                       _terminal_currents(c))
 
 
 def _check(t: BjtAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:

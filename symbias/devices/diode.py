@@ -290,7 +290,7 @@ def _describe(t: DiodeAtTemperature, controls: np.ndarray) -> Description:
                       np.where(vd < 0, "reverse", np.where(current >= ION_MIN, "forward", "off")))
     rd = 1.0 / slope + t.rs
     cj = np.where(t.capacitance, diode_capacitance(vd, t), np.nan)
-    return Description(region, {"rd": rd, "cj": cj}, {})
+    return Description(region, {"rd": rd, "cj": cj}, {}, np.stack([current, -current], axis=-1))
 
 
 def _check(t: DiodeAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:

@@ -385,7 +385,8 @@ def _describe(t: MosAtTemperature, controls: np.ndarray) -> Description:
     vds = controls[..., 1]
     c = mos_currents(controls[..., 0], vds, controls[..., 2], t)
     limits = {"vth": t.polarity * c.vth, "vov": c.vov, "vdsat": np.maximum(c.vov, t.s)}
-    return Description(mos_region(c, vds, t), mos_small_signal(c, t), limits)
+    currents = np.stack([c.id, -c.id], axis=-1)
+    return Description(mos_region(c, vds, t), mos_small_signal(c, t), limits, currents)
 
 
 def _check(t: MosAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:

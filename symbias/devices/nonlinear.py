@@ -142,11 +142,14 @@ class Description:
 
     ``nan`` in a small-signal or limit array marks a value the device does
     not have (a diode without capacitance parameters has no ``cj``).
+    ``currents``, when given, are those ``evaluate`` would give (the report
+    then need not evaluate the device again).
     """
 
     region: np.ndarray
     small_signal: Mapping[str, np.ndarray]
     limits: Mapping[str, np.ndarray]
+    currents: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
