@@ -42,6 +42,7 @@ on this machine.
 from __future__ import annotations
 
 import argparse
+import os
 import resource
 import subprocess
 import sys
@@ -252,11 +253,13 @@ def _ratio(a: float, b: float) -> str:
     return f"{a / b:.2f}x" if b > 0 else "n/a"
 
 
-def report(rows: dict, mode: str) -> str:
+def report(rows: dict, mode: str, load: tuple[float, float]) -> str:
     lines = [
         "# DC benchmark: symbias against ngspice on the same decks",
         "",
-        f"This run: Python {sys.version.split()[0]}, {mode} sizes; ratio = symbias / ngspice unless said otherwise.",
+        f"This run: Python {sys.version.split()[0]}, {mode} sizes, {os.cpu_count()} cores, load average "
+        f"{load[0]:.1f} at the start and {load[1]:.1f} at the end (other work on the machine slows both sides); "
+        "ratio = symbias / ngspice unless said otherwise.",
         "Per-point figures are (long run - short run) / (points in long - points in short) on both sides.",
         "",
         "## (a) Output sweeps, per point",
@@ -315,6 +318,7 @@ def main(argv: list[str] | None = None) -> int:
     mode = "quick" if args.quick else "full"
     size = SIZES[mode]
     process = load_process(demo_process_path())
+    load_start = os.getloadavg()[0]
     with tempfile.TemporaryDirectory(prefix="symbias-bench-") as tmp:
         tmp = Path(tmp)
         rows = {
@@ -324,7 +328,7 @@ def main(argv: list[str] | None = None) -> int:
             "op": [operating_points_row(name, size, tmp) for name in SWEEPS],
             "whole": [whole_process_row(name, size, tmp) for name in ("bjt_wilson_mirror", "bandgap_core_startup")],
         }
-    text = report(rows, mode)
+    text = report(rows, mode, (load_start, os.getloadavg()[0]))
     print(text)
     target = ROOT / "bench" / "results-dc.md" if args.write else (Path(args.output) if args.output else None)
     if target is not None:

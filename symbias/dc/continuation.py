@@ -78,7 +78,7 @@ class _Sweep:
         self.x = np.zeros((count, system.size))
         self.state = [np.zeros((count, bank.size, len(bank.model.controls))) for bank in system.banks]
         self.iterations = np.zeros(count, dtype=int)
-        self.methods = [""] * count
+        self.methods = np.full(count, "", dtype=object)
         self.solved = np.zeros(count, dtype=bool)
 
     def keep(self, points: np.ndarray, found: BatchSolution) -> np.ndarray:
@@ -89,8 +89,7 @@ class _Sweep:
         for target, value in zip(self.state, found.state):
             target[good] = value[ok]
         self.iterations[good] = found.iterations[ok]
-        for i, method in zip(good, np.asarray(found.methods, dtype=object)[ok]):
-            self.methods[i] = method
+        self.methods[good] = np.asarray(found.methods, dtype=object)[ok]
         self.solved[good] = True
         return points[~ok]
 
@@ -107,7 +106,7 @@ class _Sweep:
         return self.x[left] + weight[:, None] * (self.x[right] - self.x[left])
 
     def result(self) -> BatchSolution:
-        return BatchSolution(self.x, tuple(self.state), self.iterations, tuple(self.methods))
+        return BatchSolution(self.x, tuple(self.state), self.iterations, tuple(self.methods.tolist()))
 
 
 def solve_sweep(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None = None, *,

@@ -110,7 +110,7 @@ class _Collector:
         self.x = np.zeros((count, n))
         self.state = [np.zeros((count, bank.size, len(bank.model.controls))) for bank in system.banks]
         self.iterations = np.zeros(count, dtype=int)
-        self.methods = [""] * count
+        self.methods = np.full(count, "", dtype=object)
         self.first: dict[str, np.ndarray] = {"worst": np.zeros(count, dtype=int), "step": np.full(count, np.inf),
                                              "iterations": np.zeros(count, dtype=int)}
         self.tried = np.zeros(count, dtype=bool)
@@ -122,8 +122,7 @@ class _Collector:
         for target, value in zip(self.state, attempt.state):
             target[good] = value[ok]
         self.iterations[good] = attempt.iterations[ok]
-        for i in good:
-            self.methods[i] = method
+        self.methods[good] = method
         if first:
             fresh = ~self.tried[where] & ~ok
             for key in ("worst", "step", "iterations"):
@@ -136,7 +135,7 @@ class _Collector:
                                                    int(self.first["iterations"][i]))) for i in failed)
         for i in failed:
             self.x[i] = attempts.get(int(i), self.x[i])
-        return BatchSolution(self.x, tuple(self.state), self.iterations, tuple(self.methods), errors)
+        return BatchSolution(self.x, tuple(self.state), self.iterations, tuple(self.methods.tolist()), errors)
 
 
 def _start_vector(start, count: int, n: int) -> np.ndarray | None:
