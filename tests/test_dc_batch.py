@@ -102,6 +102,20 @@ def test_batched_equals_scalar_on_every_library_cell(identifier):
         _agree(points, i, op)
 
 
+@pytest.mark.parametrize("identifier", ["bjt-wilson-mirror", "mos-wide-swing-cascode-mirror", "brokaw-bandgap"])
+def test_large_batches_equal_scalar_solves(identifier):
+    # 96 samples: the linear stacks go through the elimination across the batch, not LAPACK
+    topology = _library()[identifier]
+    circuit, values = topology.circuit(), topology.defaults()
+    samples = _variations(circuit, values, 96, seed=7)
+    nominal = operating_point(circuit, None, 27.0, values)
+    points = operating_points(circuit, None, samples, 27.0, values, start=nominal)
+    assert not points.failures
+    for i in (0, 13, 50, 95):
+        parameters = {name: float(array[i]) for name, array in samples.items()}
+        _agree(points, i, operating_point(circuit, None, 27.0, values, parameters=parameters, start=nominal))
+
+
 def test_per_sample_gmin_and_source_stepping_equal_the_scalar_chain():
     # one Newton iteration cannot converge: every sample goes on to gmin stepping (then source stepping)
     circuit = read_netlist(DECKS / "bjt_wilson_mirror.cir")
@@ -186,3 +200,17 @@ def test_results_and_systems_cross_a_process_pool():
     np.testing.assert_allclose(joined, local.branch_currents["Vout"], rtol=RTOL)
     assert parts[1].point(0).devices["M2"].region == local.point(4).devices["M2"].region
     np.testing.assert_allclose(remote.x, solve_batch(system).x, rtol=RTOL, atol=1e-15)
+
+
+def test_elimination_across_the_batch_agrees_with_lapack():
+    from symbias.dc.newton import _linear_solve
+
+    rng = np.random.default_rng(2)
+    a = rng.normal(size=(200, 6, 6)) + 3 * np.eye(6)
+    a[7, 0, 0], a[7, 3, 0] = 0.0, 1e3  # wants another pivot order than sample 0
+    a[11] = 0.0  # singular
+    b = rng.normal(size=(200, 6))
+    x, ok = _linear_solve(a, b)
+    assert list(np.flatnonzero(~ok)) == [11]
+    good = np.flatnonzero(ok)
+    np.testing.assert_allclose(x[good], np.linalg.solve(a[good], b[good][..., None])[..., 0], rtol=1e-10, atol=1e-12)
