@@ -10,7 +10,10 @@ then mapped onto the simulator's models (see ``docs/dc.md``):
   :mod:`symbias.devices.bjt`;
 * MOS -> level 1 with ``VTO KP LAMBDA GAMMA PHI TNOM``; TCV and BEX have no
   level-1 equivalent, so a reference comparison away from TNOM is only
-  meaningful for BJT circuits and resistors.
+  meaningful for BJT and diode circuits and resistors;
+* diode -> the simulator's junction diode with ``IS N RS BV IBV NBV XTI EG
+  TNOM CJO VJ M TT FC`` (the parameters :mod:`symbias.devices.diode` models),
+  ``area=`` for area times m (ngspice takes no bare area on a diode line).
 
 Examples
 --------
@@ -32,6 +35,7 @@ import numpy as np
 
 from ..circuit import Circuit, Element
 from ..devices.bjt import BjtModel
+from ..devices.diode import DIODE_DEFAULTS
 from ..devices.mos import MosModel
 from ..process import Process
 from .system import element_number, resolved_model_parameters
@@ -87,6 +91,12 @@ def _element_line(element: Element, circuit: Circuit, process: Process | None, v
     if kind == "M":
         sizes = " ".join(f"{k}={number(element.params[k], k)}" for k in ("w", "l", "m") if k in element.params)
         return f"{element.name} {nodes} {element.model} {sizes}".rstrip()
+    if kind == "D":
+        area = 1.0
+        for key in ("area", "m"):
+            if key in element.params:
+                area *= element_number(element, element.params[key], values, path, key)
+        return f"{element.name} {nodes} {element.model} area={_num(area)}"
     raise ValueError(f"cannot export element kind {kind}")  # pragma: no cover - all kinds handled
 
 
@@ -100,9 +110,20 @@ def _model_line(circuit: Circuit, element: Element, process: Process | None, val
             del fields["VAF"]
         body = " ".join(f"{k}={_num(v)}" for k, v in fields.items())
         return f".model {model.name} {type_} ({body})"
+    if element.kind == "D":
+        return f".model {model.name} D ({_diode_body(params, tnom)})"
     m = MosModel.from_params(type_, params, tnom)
     body = " ".join(f"{k}={_num(getattr(m, k))}" for k in _MOS_KEYS)
     return f".model {model.name} {type_} (level=1 {body})"
+
+
+def _diode_body(params: Mapping[str, float], tnom: float) -> str:
+    aliases = {"CJ0": "CJO", "CJ": "CJO", "PB": "VJ", "MJ": "M"}
+    merged = dict(DIODE_DEFAULTS)
+    merged.update({aliases.get(k, k): float(v) for k, v in params.items() if aliases.get(k, k) in DIODE_DEFAULTS})
+    fields = {k: v for k, v in merged.items() if np.isfinite(v)}  # no BV: no breakdown; no NBV: N
+    fields["TNOM"] = tnom
+    return " ".join(f"{k}={_num(v)}" for k, v in fields.items())
 
 
 def reference_deck(circuit: Circuit, process: Process | None = None, temperature: float = 27.0,
