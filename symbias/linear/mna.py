@@ -404,6 +404,16 @@ class Solution:
     denominator: Any
     states: int
 
+    def __reduce__(self):
+        # python-flint polynomials do not pickle: send their terms, rebuild them in the unpickled ring
+        packed = (self.ring.pack(self.numerator), self.ring.pack(self.denominator))
+        return (_rebuild_solution, (self.ring, self.variables, packed, self.states))
+
+
+def _rebuild_solution(ring: Ring, variables, packed, states: int) -> Solution:
+    """Unpickle a :class:`Solution` (see :meth:`Solution.__reduce__`)."""
+    return Solution(ring, variables, ring.unpack(packed[0]), ring.unpack(packed[1]), states)
+
 
 def build_system(network: LinearNetwork, backend: str | None = None):
     """Ring, generator meanings and polynomial MNA entries of a network."""

@@ -20,10 +20,15 @@ Examples
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Sequence
 
-__all__ = ["Ring", "FlintRing", "SympyRing", "make_ring", "BACKENDS", "default_backend"]
+import numpy as np
+
+from ..errors import UsageError
+
+__all__ = ["Ring", "FlintRing", "SympyRing", "TermColumns", "make_ring", "BACKENDS", "default_backend"]
 
 BACKENDS = ("flint", "sympy")
 
@@ -35,6 +40,65 @@ def default_backend() -> str:
     except ImportError:  # pragma: no cover - flint is a declared dependency
         return "sympy"
     return "flint"
+
+
+@dataclass(frozen=True, eq=False)
+class TermColumns:
+    """The terms of one polynomial as arrays, in the ring's term order.
+
+    Parameters
+    ----------
+    exponents : numpy.ndarray
+        ``(terms, generators)`` exponents, the smallest unsigned dtype that holds them.
+    numerators, denominators : numpy.ndarray
+        Coefficient ``numerators[i] / denominators[i]`` in lowest terms, ``int64``
+        (or ``object`` holding Python ints when a coefficient does not fit).
+
+    Examples
+    --------
+    >>> ring = make_ring(("a", "b"), "flint")
+    >>> a, b = ring.gens
+    >>> c = ring.columns(3 * a * b - b)
+    >>> c.exponents.tolist(), c.numerators.tolist(), c.denominators.tolist()
+    ([[1, 1], [0, 1]], [3, -1], [1, 1])
+    """
+
+    exponents: np.ndarray
+    numerators: np.ndarray
+    denominators: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.numerators)
+
+    def terms(self) -> list[tuple[tuple[int, ...], Fraction]]:
+        """The same terms as ``(exponent tuple, coefficient)`` pairs."""
+        return [(tuple(e), Fraction(int(n), int(d)))
+                for e, n, d in zip(self.exponents.tolist(), self.numerators.tolist(), self.denominators.tolist())]
+
+    @classmethod
+    def from_terms(cls, terms: Sequence[tuple[tuple[int, ...], Fraction]], size: int) -> "TermColumns":
+        """Columns of ``(exponent tuple, coefficient)`` pairs over ``size`` generators."""
+        raw = np.array([e for e, _ in terms], dtype=np.int64).reshape(len(terms), size)
+        numerators = _int_array([Fraction(c).numerator for _, c in terms])
+        denominators = _int_array([Fraction(c).denominator for _, c in terms])
+        return cls(raw.astype(_exponent_dtype(int(raw.max(initial=0)))), numerators, denominators)
+
+
+def _exponent_dtype(largest: int):
+    for dtype in (np.uint8, np.uint16, np.uint32):
+        if largest <= np.iinfo(dtype).max:
+            return dtype
+    return np.uint64
+
+
+def _int_array(values: list[int]) -> np.ndarray:
+    """int64 when every value fits, else an object array of Python ints."""
+    limit = 2**63 - 1
+    if all(-limit <= v <= limit for v in values):
+        return np.array(values, dtype=np.int64).reshape(len(values))
+    out = np.empty(len(values), dtype=object)
+    out[:] = values
+    return out
 
 
 class Ring:
@@ -78,8 +142,36 @@ class Ring:
         """``poly`` times a rational constant."""
         return poly * self.constant(factor)
 
+    def coefficients(self, poly: Any) -> tuple[list[int], list[int]]:
+        """Numerators and denominators of the coefficients, without reading any exponent."""
+        terms = self.terms(poly)
+        return [c.numerator for _, c in terms], [c.denominator for _, c in terms]
+
+    def columns(self, poly: Any) -> TermColumns:
+        """The terms of ``poly`` as arrays (:class:`TermColumns`), in term order."""
+        return TermColumns.from_terms(self.terms(poly), len(self.names))
+
+    def from_columns(self, columns: TermColumns) -> Any:
+        """The polynomial with the given terms (inverse of :meth:`columns`)."""
+        return self.from_terms(columns.terms())
+
+    def pack(self, poly: Any) -> TermColumns:
+        """A picklable form of ``poly`` (its :meth:`columns`); :meth:`unpack` rebuilds it."""
+        return self.columns(poly)
+
+    def unpack(self, packed: TermColumns) -> Any:
+        """The polynomial of :meth:`pack`."""
+        return self.from_columns(packed)
+
     def gcd(self, p: Any, q: Any) -> Any:
         raise NotImplementedError
+
+    def term_content(self, poly: Any) -> Any:
+        """The largest monomial (coefficient 1) dividing every term of a non-zero ``poly``."""
+        lowest = None
+        for exponents, _ in self.terms(poly):
+            lowest = list(exponents) if lowest is None else [min(a, b) for a, b in zip(lowest, exponents)]
+        return self.from_terms([(tuple(lowest or (0,) * len(self.names)), Fraction(1))])
 
     def exact_div(self, p: Any, q: Any) -> Any:
         raise NotImplementedError
@@ -164,6 +256,19 @@ class FlintRing(Ring):
     def exact_div(self, p, q):
         return p / q
 
+    def term_content(self, poly):
+        monomial = poly.term_content()
+        return monomial / monomial.leading_coefficient()
+
+    def coefficients(self, poly):
+        coefficients = poly.coeffs()
+        return [int(c.p) for c in coefficients], [int(c.q) for c in coefficients]
+
+    def columns(self, poly):
+        from .flint_columns import flint_columns
+
+        return flint_columns(self, poly)
+
     def __getstate__(self):
         return {"names": self.names}
 
@@ -224,6 +329,10 @@ class SympyRing(Ring):
     def exact_div(self, p, q):
         return p.exquo(q)
 
+    def coefficients(self, poly):
+        values = list(poly.values())
+        return [int(c.numerator) for c in values], [int(c.denominator) for c in values]
+
     def __getstate__(self):
         return {"names": self.names}
 
@@ -244,4 +353,4 @@ def make_ring(names: Sequence[str], backend: str | None = None) -> Ring:
         return FlintRing(names)
     if backend == "sympy":
         return SympyRing(names)
-    raise ValueError(f"unknown polynomial backend {backend!r} (choose from {', '.join(BACKENDS)})")
+    raise UsageError(f"unknown polynomial backend {backend!r} (choose from {', '.join(BACKENDS)})")
