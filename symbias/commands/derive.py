@@ -232,21 +232,20 @@ def run(args: argparse.Namespace) -> int:
     at_bias = bias_point(args, circuit, topology, options) if args.at_bias else None
     # everything is computed before anything is printed: a failure writes nothing
     if form == "json":
-        from ..render.json import dumps, formula_record
+        from ..render.json import formula_record, write_json
 
         records = []
         for r in results:
-            record = formula_record(r.formula, r.approximation, r.sensitivities, r.point)
+            # exact fields are written from the terms while printing: never held whole
+            record = formula_record(r.formula, r.approximation, r.sensitivities, r.point, streamed=True)
             if r.error is not None:
                 record["transfer_error"] = _error_record(r.error)
             if at_bias is not None:
                 record["at_bias"] = _value_at(r.formula, at_bias)
             records.append(record)
         header = {"circuit": circuit.title, "source": circuit.path or args.netlist}
-        if len(records) == 1:
-            print(dumps({**header, **records[0]}))
-        else:
-            print(dumps({**header, "results": records}))
+        write_json(sys.stdout, {**header, **records[0]} if len(records) == 1 else {**header, "results": records})
+        sys.stdout.write("\n")
         return 0
     if form == "latex":
         from ..render.latex import approximation_latex, formula_latex
