@@ -9,8 +9,8 @@ and no sympy object is built.
 
 Each block is written by array operations: a term is a header (separator and
 coefficient) followed by its factors, each a small piece of text from a table;
-the pieces of a block are gathered as rows of a byte matrix (padded with NUL
-bytes) and the padding is squeezed out.  Coefficients that do not fit in 64
+the pieces of a block are gathered as fixed-width records (padded with NUL
+bytes) and the padding is deleted from the bytes.  Coefficients that do not fit in 64
 bits take a per-term path.
 
 The text is the one earlier versions wrote term by term: terms joined by
@@ -118,12 +118,13 @@ class _PieceTable:
         return ids
 
     def _byte_table(self) -> np.ndarray:
+        """One fixed-width record per piece (NUL-padded to a multiple of 8 bytes), gathered as a whole."""
         if self._table is None:
-            width = max(1, max(len(p) for p in self.pieces))
+            width = -(-max(1, max(len(p) for p in self.pieces)) // 8) * 8
             table = np.zeros((len(self.pieces), width), dtype=np.uint8)
             for i, piece in enumerate(self.pieces):
                 table[i, : len(piece)] = np.frombuffer(piece, dtype=np.uint8)
-            self._table = table
+            self._table = table.view(f"V{width}").reshape(len(self.pieces))
         return self._table
 
     def text(self, exponents: np.ndarray, numerators, denominators, first: bool) -> str:
@@ -142,8 +143,7 @@ class _PieceTable:
         is_factor[header_at] = False
         ids[header_at] = headers
         ids[is_factor] = factor_ids
-        gathered = self._byte_table()[ids]
-        return gathered[gathered != 0].tobytes().decode("utf-8")
+        return self._byte_table()[ids].tobytes().translate(None, b"\0").decode("utf-8")
 
 
 def terms_to_text(terms: Sequence[tuple[Mapping[Any, int], Fraction]]) -> str:

@@ -126,15 +126,21 @@ def _packed_exponents(ring: FlintRing, poly: Any, floats: np.ndarray) -> np.ndar
 
 
 def _balanced_sum(parts) -> Any:
-    """Sum of polynomials by a binary counter: each term is merged about log2(len) times."""
+    """Sum of polynomials by a binary counter: each term is merged about log2(len) times.
+
+    The parts are temporaries, so they are added in place.
+    """
     stack: list[tuple[int, Any]] = []
     for part in parts:
         level = 0
         while stack and stack[-1][0] == level:
-            part = stack.pop()[1] + part
-            level += 1
+            other = stack.pop()[1]
+            other.iadd(part)
+            part, level = other, level + 1
         stack.append((level, part))
     total = stack.pop()[1]
     while stack:
-        total = stack.pop()[1] + total
+        other = stack.pop()[1]
+        other.iadd(total)
+        total = other
     return total

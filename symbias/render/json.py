@@ -190,7 +190,7 @@ def _write_value(stream: TextIO, value: Any, indent: int, level: int) -> None:
     if isinstance(value, StreamedText):
         stream.write('"')
         for chunk in value.chunks():
-            stream.write(json.dumps(chunk)[1:-1])
+            stream.write(chunk if _plain(chunk) else json.dumps(chunk)[1:-1])
         stream.write('"')
         return
     if isinstance(value, dict) and value:
@@ -201,6 +201,11 @@ def _write_value(stream: TextIO, value: Any, indent: int, level: int) -> None:
         _write_container(stream, "[", "]", [(None, item) for item in value], indent, level)
         return
     stream.write(json.dumps(value, default=str))
+
+
+def _plain(text: str) -> bool:
+    """True when JSON needs no escape in ``text`` (printable ASCII without quote or backslash)."""
+    return text.isascii() and text.isprintable() and '"' not in text and "\\" not in text
 
 
 def _write_container(stream: TextIO, opening: str, closing: str, items, indent: int, level: int) -> None:
