@@ -38,7 +38,7 @@ import numpy as np
 
 from ..expressions import Symbol
 from ..linear.polys import TermColumns
-from .userform import UserForm, user_exponents, user_form, user_term_dicts
+from .userform import UserForm, user_exponents, user_form, user_term_dicts  # noqa: F401  (user_form: doctest)
 
 __all__ = ["polynomial_chunks", "terms_to_text", "terms_to_latex", "terms_to_expr", "CHUNK"]
 
