@@ -158,9 +158,11 @@ def run(args: argparse.Namespace) -> int:
     target = target_of(args)
     derivation = derive(target, request_of(args, target))
     if form == "json":
-        from ..render.json import derivation_record
+        from ..render.json import derivation_record, write_json
 
-        print_json(derivation_record(derivation))
+        # streamed from the terms: a result of a million terms is never held as one string
+        write_json(sys.stdout, derivation_record(derivation, streamed=True))
+        sys.stdout.write("\n")
     elif form == "latex":
         from ..render.latex import derivation_latex
 
