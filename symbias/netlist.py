@@ -26,62 +26,24 @@ Examples
 from __future__ import annotations
 
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
 
-from .circuit import GROUND, Circuit, Element, Model, validate
+from .circuit import GROUND, Circuit, Element, Model, SimulatorCard, validate
 from .elements import KINDS
 from .errors import CircuitError, NetlistError, SymbiasError
 from .expressions import ZERO, Expr, Number, Symbol, parse_value, try_parse_number
+from .netlist_lines import Line, logical_lines, read_text, top_lines
 
 __all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
 
 _IGNORED_CARDS = {
     ".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".options", ".option", ".print", ".plot", ".probe",
-    ".save", ".control", ".endc", ".temp", ".meas", ".measure", ".ic", ".nodeset", ".global", ".lib",
-    ".include", ".inc", ".width", ".sens", ".four", ".func", ".csparam",
+    ".save", ".control", ".endc", ".temp", ".meas", ".measure", ".ic", ".nodeset", ".global", ".width", ".sens",
+    ".four", ".func", ".csparam",
 }
-
-
-@dataclass(frozen=True)
-class Line:
-    """One logical netlist line: its tokens and the physical line it started on."""
-
-    number: int
-    text: str
-
-
-def _logical_lines(text: str) -> tuple[str, list[Line]]:
-    raw = text.splitlines()
-    if not raw:
-        raise NetlistError("empty netlist: the first line must be a title", line=1)
-    title = raw[0].strip()
-    lines: list[Line] = []
-    in_control = False
-    for number, physical in enumerate(raw[1:], start=2):
-        stripped = physical.strip()
-        low = stripped.lower()
-        if low.startswith(".control"):
-            in_control = True
-            continue
-        if in_control:
-            if low.startswith(".endc"):
-                in_control = False
-            continue
-        if not stripped or stripped.startswith("*"):
-            continue
-        stripped = stripped.split(";", 1)[0].split(" $ ", 1)[0].rstrip()
-        if not stripped:
-            continue
-        if stripped.startswith("+"):
-            if not lines:
-                raise NetlistError("continuation line '+' with nothing to continue", line=number)
-            last = lines[-1]
-            lines[-1] = Line(last.number, last.text + " " + stripped[1:].strip())
-            continue
-        lines.append(Line(number, stripped))
-    return title, lines
 
 
 _TOKEN = re.compile(r"\{[^}]*\}?|'[^']*'?|[^\s,()=]+|=")
@@ -178,16 +140,11 @@ def read_netlist(path: str | Path, *, check: bool = True) -> Circuit:
     >>> [d.name for d in read_netlist("examples/wilson_mirror.cir").devices]
     ['Q1', 'Q2', 'Q3']
     """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as err:
-        raise NetlistError(f"cannot read netlist: {getattr(err, 'strerror', None) or err}", path=str(path)) from None
-    return parse_netlist(text, str(path), check=check)
+    return parse_netlist(read_text(path), str(path), check=check)
 
 
 def _parse(text: str, path: str | None, check: bool) -> Circuit:
-    title, lines = _logical_lines(text)
+    title, lines = logical_lines(text, path)
 
     # pass 1: pull out subcircuit bodies, models and params (params in order)
     top: list[Line] = []
@@ -197,57 +154,60 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
     params: dict[str, Expr] = {}
     groups: dict[str, tuple[str, ...]] = {}
     for line in lines:
-        low = line.text.lower()
-        if low.startswith(".subckt"):
+        with _at(line):  # an error in an included file names that file and line
+            low = line.text.lower()
+            if low.startswith(".subckt"):
+                if current is not None:
+                    raise NetlistError("nested .subckt definitions are not supported", line=line.number)
+                tokens = _tokens(line.text)
+                if len(tokens) < 2:
+                    raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
+                positional, named = _split_params(tokens[2:], line.number)
+                if positional and positional[-1].lower() == "params:":
+                    positional = positional[:-1]
+                positional = [p for p in positional if p.lower() != "params:"]
+                current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
+                continue
+            if low.startswith(".ends"):
+                if current is None:
+                    raise NetlistError(".ends without .subckt", line=line.number)
+                subckts[current.name] = current
+                current = None
+                continue
             if current is not None:
-                raise NetlistError("nested .subckt definitions are not supported", line=line.number)
-            tokens = _tokens(line.text)
-            if len(tokens) < 2:
-                raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
-            positional, named = _split_params(tokens[2:], line.number)
-            if positional and positional[-1].lower() == "params:":
-                positional = positional[:-1]
-            positional = [p for p in positional if p.lower() != "params:"]
-            current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
-            continue
-        if low.startswith(".ends"):
-            if current is None:
-                raise NetlistError(".ends without .subckt", line=line.number)
-            subckts[current.name] = current
-            current = None
-            continue
-        if current is not None:
+                if low.startswith(".model"):
+                    _add_model(line, models)
+                else:
+                    current.body.append(line)
+                continue
             if low.startswith(".model"):
                 _add_model(line, models)
+            elif low.startswith(".param"):
+                _add_params(line, params)
+            elif low.startswith(".match"):
+                tokens = _tokens(line.text)
+                if len(tokens) < 3:
+                    raise NetlistError(".match needs a group name and at least one device", line=line.number)
+                groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
+            elif low.startswith(".end"):
+                break
             else:
-                current.body.append(line)
-            continue
-        if low.startswith(".model"):
-            _add_model(line, models)
-        elif low.startswith(".param"):
-            _add_params(line, params)
-        elif low.startswith(".match"):
-            tokens = _tokens(line.text)
-            if len(tokens) < 3:
-                raise NetlistError(".match needs a group name and at least one device", line=line.number)
-            groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
-        elif low.startswith(".end"):
-            break
-        else:
-            top.append(line)
+                top.append(line)
     if current is not None:
         raise NetlistError(f".subckt {current.name} has no .ends", line=current.line)
 
     elements: list[Element] = []
     for line in top:
-        if line.text.startswith("."):
-            card = line.text.split()[0].lower()
-            if card in _IGNORED_CARDS:
-                continue
-            raise NetlistError(f"unknown control card {card!r}", line=line.number)
-        elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
+        with _at(line):
+            if line.text.startswith("."):
+                card = line.text.split()[0].lower()
+                if card in _IGNORED_CARDS:
+                    continue
+                raise NetlistError(f"unknown control card {card!r}", line=line.number)
+            elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
 
-    circuit = Circuit(title=title, elements=tuple(elements), models=models, params=params, groups=groups, path=path)
+    circuit = Circuit(title=title, elements=tuple(elements), models=models, params=params, groups=groups, path=path,
+                      simulator_cards=_simulator_cards(text, path, models))
     for group, members in groups.items():
         for member in members:
             if not circuit.has_element(member):
@@ -255,6 +215,35 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
     if check:
         validate(circuit)
     return circuit
+
+
+@contextmanager
+def _at(line: Line):
+    """Errors about a line from an included file name that file and its own line."""
+    try:
+        yield
+    except SymbiasError as err:
+        origin, number = line.where
+        if origin is None:
+            raise
+        raise type(err)(err.reason, path=origin, line=number) from None
+
+
+def _simulator_cards(text: str, path: str | None, models: dict[str, Model]) -> tuple[SimulatorCard, ...]:
+    """The top file's ``.include``/``.lib`` lines and ``.model`` cards, as written, for a simulator deck."""
+    folder = Path(path).parent if path is not None else Path(".")
+    cards: list[SimulatorCard] = []
+    for line in top_lines(text):
+        words = line.text.split()
+        card = words[0].lower()
+        if card in (".include", ".inc") and len(words) == 2:
+            cards.append(SimulatorCard("include", line.text, line.number, file=str(folder / words[1].strip("'\""))))
+        elif card == ".lib" and len(words) == 3:
+            cards.append(SimulatorCard("lib", line.text, line.number, file=str(folder / words[1].strip("'\"")),
+                                       section=words[2].strip("'\"").lower()))
+        elif card == ".model" and len(words) > 1 and words[1].lower() in models:
+            cards.append(SimulatorCard("model", line.text, line.number, model=models[words[1].lower()]))
+    return tuple(cards)
 
 
 def _add_model(line: Line, models: dict[str, Model]) -> None:
