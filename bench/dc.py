@@ -11,7 +11,7 @@ divided by the difference in points, so start-up (process start, parsing,
 set-up) cancels on both sides:
 
 * ngspice: the wall time of whole ``ngspice -b`` processes (best of three)
-  on the deck ``symbias.dc.reference.reference_deck`` writes, with the long
+  on the deck ``symbias.simulator.deck.reference_deck`` writes, with the long
   run long enough to resolve (hundreds of milliseconds);
 * symbias: the wall time of the Python call (best of several) on a parsed
   netlist: "solve" includes compiling the circuit (with the samples),
@@ -59,7 +59,8 @@ sys.path.insert(0, str(ROOT))
 from symbias.circuit import Model  # noqa: E402
 from symbias.dc.mismatch import mismatch_samples, mismatch_sigmas  # noqa: E402
 from symbias.dc.operating_point import operating_point, operating_points  # noqa: E402
-from symbias.dc.reference import reference_deck, read_wrdata, simulator  # noqa: E402
+from symbias.simulator.deck import reference_deck  # noqa: E402
+from symbias.simulator.ngspice import read_wrdata, simulator  # noqa: E402
 from symbias.dc.sweep import sweep_source, sweep_temperature  # noqa: E402
 from symbias.netlist import read_netlist  # noqa: E402
 from symbias.process import demo_process_path, load_process  # noqa: E402

@@ -39,6 +39,7 @@ __all__ = [
     "CircuitWarning",
     "ModelWarning",
     "BiasWarning",
+    "SimulatorWarning",
 ]
 
 
@@ -150,3 +151,7 @@ class ModelWarning(SymbiasWarning):
 
 class BiasWarning(SymbiasWarning):
     """An operating point is usable but deserves attention (several states, matched devices that differ)."""
+
+
+class SimulatorWarning(SymbiasWarning):
+    """The external simulator ran but said something worth knowing (a model parameter it ignored)."""

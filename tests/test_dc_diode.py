@@ -6,7 +6,7 @@ small-signal resistance ``rd = n VT / ID`` (Sedra and Smith, Microelectronic
 Circuits, the diodes chapter: terminal characteristics and the small-signal
 model; equation numbers not checked - common practice); a forward drop that
 falls by about 2 mV per kelvin at constant current (common practice).
-ngspice (Debian) runs the decks written by :func:`symbias.dc.reference.reference_deck`
+ngspice (Debian) runs the decks written by :func:`symbias.simulator.deck.reference_deck`
 with the tolerances of ``tests/test_ngspice_dc.py`` (1 mV, 0.5 %).
 """
 
@@ -20,7 +20,8 @@ import numpy as np
 import pytest
 
 from symbias.dc.operating_point import operating_point
-from symbias.dc.reference import reference_deck, run_reference, simulator
+from symbias.simulator.deck import reference_deck
+from symbias.simulator.ngspice import run_reference, simulator
 from symbias.dc.sweep import sweep_temperature
 from symbias.devices.temperature import thermal_voltage
 from symbias.errors import ModelWarning, ProcessError

@@ -15,7 +15,7 @@ import argparse
 import sys
 
 from ..errors import UsageError
-from .common import add_design_arguments, add_target_argument
+from .common import add_bias_source_arguments, add_design_arguments, add_target_argument
 
 __all__ = ["register", "run", "request_of", "output_format"]
 
@@ -56,6 +56,7 @@ def register(subparsers) -> None:
     bias.add_argument("--at-bias", action="store_true",
                       help="solve the DC operating point and evaluate each result with its gm, rpi, ro, gmb")
     add_design_arguments(bias)
+    add_bias_source_arguments(bias)
     out = p.add_argument_group("output")
     out.add_argument("--format", choices=("text", "latex", "markdown", "json", "python"), default=None,
                      help="output form (default text)")
@@ -123,6 +124,8 @@ def request_of(args: argparse.Namespace, target):
 
     quantities = [parse_quantity(kind, text, f"--{flag}") for flag, kind in _FLAGS.items()
                   for text in getattr(args, flag)]
+    if not args.at_bias and (args.models != "built-in" or args.corner or args.keep_deck):
+        raise UsageError("--models, --corner and --keep-deck choose the bias values: add --at-bias", path="--models")
     return DeriveRequest(
         quantities=tuple(quantities),
         options=options_of(args),

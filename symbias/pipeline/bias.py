@@ -61,23 +61,41 @@ class BiasPoint:
 
 
 def operating_point_of(target: Target, inputs: DesignInputs):
-    """The DC operating point of a target.
+    """The DC operating point of a target, from the source ``inputs.models`` names, at its corner.
 
     Raises
     ------
     CircuitError, ConvergenceError
         From the DC solve.
+    SimulatorError
+        From ngspice, with ``models="ngspice"``.
     """
     from ..dc.operating_point import operating_point
+    from .simulation import corner_target, simulated_point
 
+    if inputs.models == "ngspice":
+        return simulated_point(target, inputs)
+    target = corner_target(target, inputs)
     return operating_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
                            guess=dict(inputs.guess) or None)
 
 
 def states_of(target: Target, inputs: DesignInputs):
-    """Every DC state found from several starts (:class:`~symbias.dc.solutions.Solutions`)."""
-    from ..dc.solutions import find_solutions
+    """Every DC state found from several starts (:class:`~symbias.dc.solutions.Solutions`), built-in models only.
 
+    Raises
+    ------
+    UsageError
+        With ``models="ngspice"`` (the simulator gives one operating point).
+    """
+    from ..dc.solutions import find_solutions
+    from ..errors import UsageError
+    from .simulation import corner_target
+
+    if inputs.models != "built-in":
+        raise UsageError("--all searches DC states with the built-in models; ngspice gives one operating point",
+                         path="--models")
+    target = corner_target(target, inputs)
     return find_solutions(target.circuit, inputs.process, inputs.temperature, inputs.values)
 
 

@@ -280,6 +280,9 @@ def derivation_record(derivation, *, streamed: bool = False) -> dict[str, Any]:
                 record["approx_error_at_bias"] = result.approximation_error_at_bias
         records.append(record)
     header = {"circuit": derivation.target.title, "source": derivation.target.where}
+    if derivation.bias is not None:  # where the values at the operating point came from
+        header["bias_models"] = derivation.bias.inputs.models
+        header["bias_corner"] = derivation.bias.inputs.corners[0] if derivation.bias.inputs.corners else None
     if len(records) == 1:
         return {**header, **records[0]}
     return {**header, "results": records}

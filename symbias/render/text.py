@@ -177,7 +177,8 @@ def derivation_renderables(derivation) -> list[Any]:
             continue
         rows = approximation_rows(result.approximation) if result.approximation is not None else []
         if bias is not None:
-            rows.insert(0, ("at the operating point", value_text(result, bias.temperature)))
+            source = " (ngspice)" if bias.inputs.models == "ngspice" else ""
+            rows.insert(0, (f"at the operating point{source}", value_text(result, bias.temperature)))
         if result.approximation_error_at_bias is not None:
             rows.append(("error at the operating point", f"{100 * result.approximation_error_at_bias:.3g} %"))
         if result.transfer_error is not None:
