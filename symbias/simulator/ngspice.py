@@ -121,29 +121,34 @@ def run_ngspice(deck: str, *, timeout: float = 60.0, keep: str | Path | None = N
     exe = simulator(executable)
     if exe is None:
         raise SimulatorError(INSTALL_HINT, path=where)
-    with tempfile.TemporaryDirectory(prefix="symbias-ngspice-") as folder:
-        path = Path(folder) / "deck.cir"
-        path.write_text(deck, encoding="utf-8")
-        try:
-            done = subprocess.run([exe, "-b", path.name], cwd=folder, capture_output=True, text=True,
-                                  timeout=timeout, stdin=subprocess.DEVNULL, errors="replace")
-        except subprocess.TimeoutExpired:
-            kept = _keep(keep, deck, "", "")
-            raise SimulatorError(f"ngspice did not finish within {timeout:g} s{_kept_note(kept)}", path=where) from None
-        except OSError as err:
-            raise SimulatorError(f"cannot run ngspice ({exe}): {err.strerror or err}", path=where) from None
-        kept = _keep(keep, deck, done.stdout, done.stderr)
-        message = failure_message(done.stdout, done.stderr)
-        if message is None and done.returncode != 0:
-            message = f"exit status {done.returncode}"
-        if message is not None:
-            raise SimulatorError(f"ngspice failed: {message}{_kept_note(kept)}", path=where)
-        contents = {}
-        for name in files:
-            target = Path(folder) / name
-            if not target.exists():
-                raise SimulatorError(f"ngspice wrote no {name}{_kept_note(kept)}", path=where)
-            contents[name] = target.read_text(encoding="utf-8", errors="replace")
+    try:
+        with tempfile.TemporaryDirectory(prefix="symbias-ngspice-") as folder:
+            return _run_in(Path(folder), exe, deck, timeout, keep, files, where)
+    except OSError as err:  # no temporary folder, or the executable cannot be started
+        raise SimulatorError(f"cannot run ngspice ({exe}): {err.strerror or err}", path=where) from None
+
+
+def _run_in(folder: Path, exe: str, deck: str, timeout: float, keep, files: Sequence[str],
+            where: str | None) -> SimulatorRun:
+    (folder / "deck.cir").write_text(deck, encoding="utf-8")
+    try:
+        done = subprocess.run([exe, "-b", "deck.cir"], cwd=folder, capture_output=True, text=True,
+                              timeout=timeout, stdin=subprocess.DEVNULL, errors="replace")
+    except subprocess.TimeoutExpired:
+        kept = _keep(keep, deck, "", "")
+        raise SimulatorError(f"ngspice did not finish within {timeout:g} s{_kept_note(kept)}", path=where) from None
+    kept = _keep(keep, deck, done.stdout, done.stderr)
+    message = failure_message(done.stdout, done.stderr)
+    if message is None and done.returncode != 0:
+        message = f"exit status {done.returncode}"
+    if message is not None:
+        raise SimulatorError(f"ngspice failed: {message}{_kept_note(kept)}", path=where)
+    contents = {}
+    for name in files:
+        target = folder / name
+        if not target.exists():
+            raise SimulatorError(f"ngspice wrote no {name}{_kept_note(kept)}", path=where)
+        contents[name] = target.read_text(encoding="utf-8", errors="replace")
     return SimulatorRun(done.stdout, done.stderr, contents, kept)
 
 
