@@ -215,3 +215,15 @@ def test_ngspice_itself_prints_the_same_numbers_as_a_separate_run():
                           capture_output=True, text=True, timeout=60, cwd=DECKS)
     match = re.search(r"^v\(c\) = (\S+)$", done.stdout, flags=re.M)
     assert match and float(match.group(1)) == pytest.approx(op.voltage("c"), rel=1e-6)
+
+
+def test_the_temperature_reaches_the_simulator():
+    """At 85 degC the Gummel-Poon card (IS, BF, VAF; XTI, EG, XTB at their defaults) gives the built-in point."""
+    from symbias.dc.operating_point import operating_point
+
+    circuit = read_netlist("examples/wilson_mirror.cir")
+    hot, cold = simulator_operating_point(circuit, temperature=85.0), simulator_operating_point(circuit)
+    assert hot.temperature == 85.0 and hot.voltage("in") < cold.voltage("in") - 0.05  # VBE falls ~2 mV/K
+    ours = operating_point(circuit, temperature=85.0)
+    for node, volts in ours.node_voltages.items():
+        assert hot.voltage(node) == pytest.approx(volts, abs=1e-5), node

@@ -34,6 +34,7 @@ Examples
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 from typing import Mapping
 
@@ -43,6 +44,9 @@ from ..devices.diode import DIODE_DEFAULTS
 from ..process import Process
 
 __all__ = ["SPICE_PROCESS_KEYS", "model_lines", "included_lines", "number_text"]
+
+#: ``.model NAME TYPE rest`` (the type may touch the parenthesis).
+_CARD = re.compile(r"^\s*\.model\s+(\S+)\s+([A-Za-z]+)\s*(.*)$", re.IGNORECASE)
 
 #: Process-file parameters written into a deck, per model type (the SPICE names the simulator's
 #: Gummel-Poon, level-1 MOS and junction-diode models take).
@@ -117,7 +121,7 @@ def model_lines(circuit: Circuit, process: Process | None,
         element = users.get(key)
         added, skipped = _process_additions(model, process)
         if card is not None and all(v.is_number for v in model.params.values()):
-            lines.append(_with_additions(card.text, model, added))
+            lines.append(_with_additions(card.text, added))
             notes.append(f"{model.name}: the netlist's card as written" + _addition_note(added, skipped, process))
             continue
         if element is None:
@@ -161,17 +165,22 @@ def _addition_note(added: Mapping[str, float], skipped: list[str], process: Proc
     return text
 
 
-def _with_additions(text: str, model: Model, added: Mapping[str, float]) -> str:
-    """The card's own text with process parameters placed before its own (the card's values stay last)."""
+def _with_additions(text: str, added: Mapping[str, float]) -> str:
+    """The card's own text with process parameters placed before its own (the card's values stay last).
+
+    Examples
+    --------
+    >>> _with_additions(".model QP npn(BF=80 ikf=2m)", {"IS": 1e-16})
+    '.model QP npn (IS=1e-16 BF=80 ikf=2m)'
+    """
     if not added:
         return text
-    words = text.split(None, 3)
-    rest = words[3] if len(words) > 3 else ""
-    body = rest.strip()
+    head = _CARD.match(text)
+    body = head.group(3).strip() if head else ""
     if body.startswith("(") and body.endswith(")"):
         body = body[1:-1].strip()
     extra = " ".join(f"{k}={number_text(v)}" for k, v in added.items())
-    return f"{words[0]} {words[1]} {words[2]} ({extra} {body})".replace(" )", ")")
+    return f".model {head.group(1)} {head.group(2)} ({extra} {body})".replace(" )", ")")
 
 
 def _from_parameters(circuit: Circuit, element: Element, model: Model, process: Process | None,
