@@ -26,7 +26,6 @@ Examples
 from __future__ import annotations
 
 import re
-from contextlib import contextmanager
 from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
@@ -154,57 +153,55 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
     params: dict[str, Expr] = {}
     groups: dict[str, tuple[str, ...]] = {}
     for line in lines:
-        with _at(line):  # an error in an included file names that file and line
-            low = line.text.lower()
-            if low.startswith(".subckt"):
-                if current is not None:
-                    raise NetlistError("nested .subckt definitions are not supported", line=line.number)
-                tokens = _tokens(line.text)
-                if len(tokens) < 2:
-                    raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
-                positional, named = _split_params(tokens[2:], line.number)
-                if positional and positional[-1].lower() == "params:":
-                    positional = positional[:-1]
-                positional = [p for p in positional if p.lower() != "params:"]
-                current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
-                continue
-            if low.startswith(".ends"):
-                if current is None:
-                    raise NetlistError(".ends without .subckt", line=line.number)
-                subckts[current.name] = current
-                current = None
-                continue
+        low = line.text.lower()
+        if low.startswith(".subckt"):
             if current is not None:
-                if low.startswith(".model"):
-                    _add_model(line, models)
-                else:
-                    current.body.append(line)
-                continue
+                raise NetlistError("nested .subckt definitions are not supported", line=line.number)
+            tokens = _tokens(line.text)
+            if len(tokens) < 2:
+                raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
+            positional, named = _split_params(tokens[2:], line.number)
+            if positional and positional[-1].lower() == "params:":
+                positional = positional[:-1]
+            positional = [p for p in positional if p.lower() != "params:"]
+            current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
+            continue
+        if low.startswith(".ends"):
+            if current is None:
+                raise NetlistError(".ends without .subckt", line=line.number)
+            subckts[current.name] = current
+            current = None
+            continue
+        if current is not None:
             if low.startswith(".model"):
                 _add_model(line, models)
-            elif low.startswith(".param"):
-                _add_params(line, params)
-            elif low.startswith(".match"):
-                tokens = _tokens(line.text)
-                if len(tokens) < 3:
-                    raise NetlistError(".match needs a group name and at least one device", line=line.number)
-                groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
-            elif low.startswith(".end"):
-                break
             else:
-                top.append(line)
+                current.body.append(line)
+            continue
+        if low.startswith(".model"):
+            _add_model(line, models)
+        elif low.startswith(".param"):
+            _add_params(line, params)
+        elif low.startswith(".match"):
+            tokens = _tokens(line.text)
+            if len(tokens) < 3:
+                raise NetlistError(".match needs a group name and at least one device", line=line.number)
+            groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
+        elif low.startswith(".end"):
+            break
+        else:
+            top.append(line)
     if current is not None:
         raise NetlistError(f".subckt {current.name} has no .ends", line=current.line)
 
     elements: list[Element] = []
     for line in top:
-        with _at(line):
-            if line.text.startswith("."):
-                card = line.text.split()[0].lower()
-                if card in _IGNORED_CARDS:
-                    continue
-                raise NetlistError(f"unknown control card {card!r}", line=line.number)
-            elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
+        if line.text.startswith("."):
+            card = line.text.split()[0].lower()
+            if card in _IGNORED_CARDS:
+                continue
+            raise NetlistError(f"unknown control card {card!r}", line=line.number)
+        elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
 
     circuit = Circuit(title=title, elements=tuple(elements), models=models, params=params, groups=groups, path=path,
                       simulator_cards=_simulator_cards(text, path, models))
@@ -215,18 +212,6 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
     if check:
         validate(circuit)
     return circuit
-
-
-@contextmanager
-def _at(line: Line):
-    """Errors about a line from an included file name that file and its own line."""
-    try:
-        yield
-    except SymbiasError as err:
-        origin, number = line.where
-        if origin is None:
-            raise
-        raise type(err)(err.reason, path=origin, line=number) from None
 
 
 def _simulator_cards(text: str, path: str | None, models: dict[str, Model]) -> tuple[SimulatorCard, ...]:
