@@ -61,17 +61,32 @@ class BiasPoint:
 
 
 def operating_point_of(target: Target, inputs: DesignInputs):
-    """The DC operating point of a target.
+    """The DC operating point of a target, on its conducting state, with the other states attached.
+
+    The one place every command takes its operating point from: a
+    self-biased cell is reported on the state that carries current (not on
+    a zero-current state a plain solve may land on), and ``point.states``
+    (:class:`~symbias.dc.states.StateSurvey`) lists every state found and
+    whether a start-up circuit is needed.  A ``guess`` in the inputs picks
+    the state instead.
 
     Raises
     ------
     CircuitError, ConvergenceError
         From the DC solve.
-    """
-    from ..dc.operating_point import operating_point
 
-    return operating_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
-                           guess=dict(inputs.guess) or None)
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target, design_inputs
+    >>> target = load_target("brokaw-bandgap")
+    >>> point = operating_point_of(target, design_inputs(target))
+    >>> round(point.voltage("vref"), 3), len(point.states.states), point.states.needs_startup
+    (1.183, 3, True)
+    """
+    from ..dc.states import conducting_point
+
+    return conducting_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
+                            guess=dict(inputs.guess) or None)
 
 
 def states_of(target: Target, inputs: DesignInputs):
