@@ -2,7 +2,10 @@
 
 Pipeline step for the simulator: a target and design inputs -> deck text.
 The deck uses the same model mapping as the ngspice checks (docs/dc.md): it
-is a starting point, and sign-off uses the foundry's models.
+is a starting point, and sign-off uses the foundry's models.  Where the
+circuit has several DC states, the deck carries a ``.nodeset`` of the
+conducting one (the state every command reports) and says so in a comment,
+with the start-up finding.
 
 Examples
 --------
@@ -42,7 +45,29 @@ def signoff_deck(target: Target, inputs: DesignInputs, analysis: str = "op") -> 
     if analysis not in ANALYSES:
         raise UsageError(f"unknown analysis {analysis!r} (choose from {', '.join(ANALYSES)})", path="--analysis")
     header = "* written by symbias: models mapped as in docs/dc.md; sign-off needs the foundry's models"
+    notes, nodeset = _states(target, inputs)
     text = reference_deck(target.circuit, inputs.process, inputs.temperature, inputs.values,
-                          control=ANALYSES[analysis], options="")
+                          control=ANALYSES[analysis], options="", guess=nodeset)
     title, _, rest = text.partition("\n")
-    return f"{title}\n{header}\n{rest}"
+    return "\n".join([title, header, *notes, rest])
+
+
+def _states(target: Target, inputs: DesignInputs) -> tuple[list[str], dict[str, float] | None]:
+    """Comment lines on the DC states and the node voltages of the conducting one (None: one state)."""
+    from ..errors import SymbiasError
+    from .bias import operating_point_of
+
+    if inputs.guess:
+        return [], dict(inputs.guess)
+    try:
+        point = operating_point_of(target, inputs)
+    except SymbiasError as err:  # the deck is still worth writing; say why it has no nodeset
+        return [f"* symbias found no DC operating point ({err.reason}); no .nodeset written"], None
+    states = point.states
+    if states is None or not states.several:
+        return [], None
+    notes = [f"* {len(states.states)} DC states found; .nodeset puts the simulator on the {states.reason} "
+             f"({point.supply_current:.4g} A from the supplies)"]
+    if states.needs_startup:
+        notes.append("* a zero-current state exists: the circuit needs a start-up circuit")
+    return notes, {node: value for node, value in point.node_voltages.items() if node != "0"}

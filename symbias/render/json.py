@@ -249,6 +249,7 @@ def _write_container(stream: TextIO, opening: str, closing: str, items, indent: 
 
 def _transfer_error_record(error) -> dict[str, Any]:
     return {
+        "kind": "small-signal: 1 - (d iout/d iin)/ideal",
         "ideal": str(error.ideal.expr),
         "exact": error.exact.exact_string(),
         "leading": error.leading.text,
@@ -274,12 +275,17 @@ def derivation_record(derivation, *, streamed: bool = False) -> dict[str, Any]:
                                 streamed=streamed)
         if result.transfer_error is not None:
             record["transfer_error"] = _transfer_error_record(result.transfer_error)
+        if result.dc_ratio is not None:
+            record["dc_ratio"] = result.dc_ratio.to_dict()
         if derivation.bias is not None:
             record["at_bias"] = result.value
+            record["at_bias_kind"] = "small-signal value at the operating point"
             if result.approximation_error_at_bias is not None:
                 record["approx_error_at_bias"] = result.approximation_error_at_bias
         records.append(record)
     header = {"circuit": derivation.target.title, "source": derivation.target.where}
+    if derivation.bias is not None and derivation.bias.point.states is not None:
+        header["operating_point_states"] = derivation.bias.point.states.to_dict()
     if len(records) == 1:
         return {**header, **records[0]}
     return {**header, "results": records}
