@@ -40,16 +40,13 @@ Examples
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Any, Mapping
 
 from .circuit import GROUND, Circuit
 from .devices.nonlinear import device_model
 from .errors import CircuitError
 
-__all__ = ["OutputCurrent", "output_current", "output_currents", "SOURCING_TYPES", "SPICE_BRANCH", "OUTPUT_PROBE"]
-
-#: Transistor model types whose output terminal sources current (the others sink).
-SOURCING_TYPES = frozenset({"pnp", "pmos"})
+__all__ = ["OutputCurrent", "output_current", "output_currents", "SPICE_BRANCH", "OUTPUT_PROBE"]
 #: How a voltage source's branch current is signed wherever it is shown.
 SPICE_BRANCH = "SPICE sign: positive into the + terminal"
 #: Name of the output-current probe: ``Iout(<source>)``.
@@ -105,15 +102,15 @@ class OutputCurrent:
                 "sign_vs_spice": self.sign, "device": self.device, "meaning": self.meaning, "unit": "A"}
 
 
-def _output_devices(circuit: Circuit, node: str) -> list[tuple[str, str]]:
-    """(device name, model type) of every transistor whose output terminal is at ``node``."""
+def _output_devices(circuit: Circuit, node: str) -> list[tuple[str, Any]]:
+    """(device name, model card) of every transistor whose output terminal is at ``node``."""
     found = []
     for element in circuit.devices:
         model = device_model(element.kind)
         if model is None or not model.working_regions:  # a diode is not a current-source output
             continue
         if element.nodes[model.terminals.index(model.output)] == node:
-            found.append((element.name, circuit.model_of(element).type))
+            found.append((element.name, circuit.model_of(element)))
     return found
 
 
@@ -141,12 +138,12 @@ def output_current(circuit: Circuit, source: str) -> OutputCurrent:
     if len(deciding) != 1:
         return OutputCurrent(element.name, plus, None, -1)
     node, devices = deciding[0]
-    name, type_ = devices[0]
-    direction = "sources" if type_ in SOURCING_TYPES else "sinks"
+    name, card = devices[0]
+    direction = "sources" if card.polarity < 0 else "sinks"  # pnp and pmos outputs source current
     # I(source) enters the + terminal from the circuit: the current the circuit delivers into the source at +
     delivered = 1 if node == plus else -1
     sign = delivered if direction == "sources" else -delivered
-    return OutputCurrent(element.name, node, direction, sign, name, type_)
+    return OutputCurrent(element.name, node, direction, sign, name, card.type)
 
 
 def output_currents(circuit: Circuit, branch_currents: Mapping[str, float]) -> list[tuple[OutputCurrent, float]]:
