@@ -137,6 +137,21 @@ def _nominal(value):
     return float(array[np.argmin(np.abs(array - np.median(array)))])
 
 
+def _nominal_start(circuit, process, temperature, values, overrides, guess, options) -> OperatingPoint | None:
+    """The nominal operating point every sample starts from: the conducting state (the sources as given)."""
+    from .states import conducting_point
+
+    nominal_values = {k: _nominal(v) for k, v in (values or {}).items()}
+    try:
+        if overrides:
+            return operating_point(circuit, process, _nominal(temperature), nominal_values,
+                                   overrides={k: _nominal(v) for k, v in overrides.items()}, guess=guess,
+                                   options=options)
+        return conducting_point(circuit, process, _nominal(temperature), nominal_values, guess=guess, options=options)
+    except SymbiasError:
+        return None  # no nominal point: every sample starts from scratch
+
+
 def operating_points(circuit: Circuit, process: Process | None = None, samples: Mapping[str, Any] | None = None,
                      temperature=27.0, values: Mapping[str, Any] | None = None, *,
                      overrides: Mapping[str, Any] | None = None, guess: Mapping[str, float] | None = None,
@@ -145,7 +160,9 @@ def operating_points(circuit: Circuit, process: Process | None = None, samples: 
 
     Every sample starts Newton from the nominal solution (``start``, or the
     circuit solved without the samples, with each other array replaced by
-    its median sample), so a self-biased cell stays on its conducting state;
+    its median sample, on its conducting state as
+    :func:`~symbias.dc.states.conducting_point` finds it), so a self-biased
+    cell stays on its conducting state;
     samples that do not converge go on through gmin and source stepping on
     their own.  A sample
     that still fails is listed in :attr:`OperatingPoints.errors` with its
@@ -168,13 +185,7 @@ def operating_points(circuit: Circuit, process: Process | None = None, samples: 
     """
     system = build_system(circuit, process, temperature, values, samples=samples)
     if start is None:
-        try:
-            start = operating_point(circuit, process, _nominal(temperature),
-                                    {k: _nominal(v) for k, v in (values or {}).items()},
-                                    overrides={k: _nominal(v) for k, v in (overrides or {}).items()}, guess=guess,
-                                    options=options)
-        except SymbiasError:
-            start = None  # no nominal point: every sample starts from scratch
+        start = _nominal_start(circuit, process, temperature, values, overrides, guess, options)
     solution = solve_batch(system, overrides=overrides, start=start.solution if start else None, guess=guess,
                            options=options)
     return report_batch(system, solution, overrides)
