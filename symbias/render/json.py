@@ -297,6 +297,8 @@ def _units(op) -> dict[str, Any]:
     from ..symbols import unit_of
 
     keys = sorted({k for dev in op.devices.values() for k in dev.small_signal})
+    shown = {key: unit for dev in op.devices.values() for _, section, key, unit in dev.fields
+             if section == "small_signal"}  # the units the tables show
     return {
         "temperature": "degC",
         "node_voltages": "V",
@@ -305,7 +307,7 @@ def _units(op) -> dict[str, Any]:
         "output_currents": "A, positive in the direction the output transistor drives it (docs/conventions.md)",
         "devices.currents": "A, into each terminal",
         "devices.voltages": "V, between the element's own pins",
-        "devices.small_signal": {k: unit_of(f"{k}_X") or "" for k in keys},
+        "devices.small_signal": {k: shown.get(k) or unit_of(f"{k}_X") or "" for k in keys},
         "devices.limits": "V",
     }
 
