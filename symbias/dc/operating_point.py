@@ -52,9 +52,9 @@ from ..devices.nonlinear import MAX_CURRENT
 from ..errors import SymbiasError
 from ..process import Process
 from .newton import DcOptions
-from .report import report_batch, violations
+from .report import report_batch, report_point, violations
 from .results import DeviceOperatingPoint, DeviceOperatingPoints, OperatingPoint, OperatingPoints
-from .stepping import BatchSolution, Solution, solve, solve_batch
+from .stepping import Solution, solve, solve_batch
 from .system import DcSystem, build_system
 
 __all__ = ["OperatingPoint", "DeviceOperatingPoint", "OperatingPoints", "DeviceOperatingPoints", "operating_point",
@@ -102,7 +102,7 @@ def operating_point(circuit: Circuit, process: Process | None = None, temperatur
 
 
 def report(system: DcSystem, solution: Solution, overrides: Mapping[str, Any] | None = None) -> OperatingPoint:
-    """Build the :class:`OperatingPoint` of a converged solution.
+    """Build the :class:`OperatingPoint` of a converged solution (:func:`symbias.dc.report.report_point`).
 
     Raises
     ------
@@ -111,9 +111,7 @@ def report(system: DcSystem, solution: Solution, overrides: Mapping[str, Any] | 
     AnalysisError
         When it is not finite.
     """
-    batch = BatchSolution(solution.x[None, :], tuple(s[None] for s in solution.state),
-                          np.array([solution.iterations]), (solution.method,))
-    return report_batch(system, batch, overrides).point(0)
+    return report_point(system, solution, overrides)
 
 
 def check_plausible(system: DcSystem, x: np.ndarray) -> None:

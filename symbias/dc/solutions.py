@@ -57,7 +57,8 @@ from ..devices.nonlinear import ION_MIN
 from ..errors import AnalysisError, SymbiasError
 from ..process import Process
 from .newton import DcOptions, initial_state, newton, residual
-from .operating_point import OperatingPoint, report
+from .report import report_point as report
+from .results import OperatingPoint
 from .stepping import Solution, power_up, solve
 from .system import DcSystem, build_system
 

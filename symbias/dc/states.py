@@ -46,7 +46,8 @@ import numpy as np
 from ..circuit import Circuit
 from ..process import Process
 from .newton import DcOptions, bank_numbers, device_controls
-from .operating_point import OperatingPoint, report
+from .report import report_point as report
+from .results import OperatingPoint
 from .solutions import ZERO_FRACTION, DcState, Solutions, same_state, search_states
 from .stepping import solve
 from .system import DcSystem, build_system

@@ -250,7 +250,9 @@ def _degeneration(circuit, inputs: DesignInputs, input_node: str) -> list[_Cause
             low = device.nodes[2]
             found = [r for r in circuit.elements_of("R") if low != GROUND and low in r.nodes]
             resistors.append(found[0] if len(found) == 1 else None)
-        if len(devices) < 2 or None in resistors or len({_other(r, d.nodes[2]) for r, d in zip(resistors, devices)}) != 1:
+        if len(devices) < 2 or None in resistors:
+            continue
+        if len({_other(r, d.nodes[2]) for r, d in zip(resistors, devices)}) != 1:  # no common return node
             continue
         reference = next((i for i, d in enumerate(devices) if d.nodes[0] == input_node), 0)
         base = float(context.value(resistors[reference], "resistance")) * _size(devices[reference], context)
