@@ -65,7 +65,10 @@ def operating_point(circuit: Circuit, process: Process | None = None, temperatur
                     values: Mapping[str, float] | None = None, *, overrides: Mapping[str, float] | None = None,
                     start: OperatingPoint | None = None, guess: Mapping[str, float] | None = None,
                     options: DcOptions = DcOptions(), parameters: Mapping[str, float] | None = None) -> OperatingPoint:
-    """Solve the DC operating point of ``circuit``.
+    """Solve the DC operating point of ``circuit``: the state Newton reaches from its start.
+
+    For a self-biased cell, :func:`symbias.dc.states.conducting_point` finds the
+    conducting state and lists the others (what every command reports).
 
     Parameters
     ----------
