@@ -104,17 +104,8 @@ def operating_point(circuit: Circuit, process: Process | None = None, temperatur
     return report(system, solution, overrides)
 
 
-def report(system: DcSystem, solution: Solution, overrides: Mapping[str, Any] | None = None) -> OperatingPoint:
-    """Build the :class:`OperatingPoint` of a converged solution (:func:`symbias.dc.report.report_point`).
-
-    Raises
-    ------
-    CircuitError
-        When the solution lies outside what the device models describe (:func:`check_plausible`).
-    AnalysisError
-        When it is not finite.
-    """
-    return report_point(system, solution, overrides)
+#: The operating point of one converged solution (:func:`symbias.dc.report.report_point`).
+report = report_point
 
 
 def check_plausible(system: DcSystem, x: np.ndarray) -> None:
