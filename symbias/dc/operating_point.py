@@ -54,7 +54,7 @@ from ..process import Process
 from .newton import DcOptions
 from .report import report_batch, report_point, violations
 from .results import DeviceOperatingPoint, DeviceOperatingPoints, OperatingPoint, OperatingPoints
-from .stepping import Solution, solve, solve_batch
+from .stepping import solve, solve_batch
 from .system import DcSystem, build_system
 
 __all__ = ["OperatingPoint", "DeviceOperatingPoint", "OperatingPoints", "DeviceOperatingPoints", "operating_point",
