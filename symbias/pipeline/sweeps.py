@@ -205,8 +205,8 @@ class SweepResult:
         if text.lower().startswith(OUTPUT_PROBE.lower() + "("):
             return output_current(self.sweep.circuit, text[len(OUTPUT_PROBE) + 1:-1].strip()).meaning
         if self.output_unit == "A":
-            return f"{text}: {SPICE_BRANCH} (voltage sources); first node to second (other elements)"
-        return f"{text}: node voltage to ground (or between the two nodes)"
+            return f"{SPICE_BRANCH} (a voltage source); from the first node to the second (other elements)"
+        return "node voltage to ground"
 
     def units(self) -> dict[str, str]:
         """Metric key -> unit (see :data:`METRICS`)."""

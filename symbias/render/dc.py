@@ -189,7 +189,7 @@ def sweep_renderables(target, result, table: bool = False) -> list[Any]:
     units = result.units()
     for key, value in result.metrics.to_dict().items():
         label = METRICS[result.kind].get(key, (key, ""))[0]
-        metrics.add_row(f"{label} ({key})", _metric_text(value), units.get(key, ""))
+        metrics.add_row(label if label == key else f"{label} ({key})", _metric_text(value), units.get(key, ""))
     out: list[Any] = [header, *_branch_lines(result), metrics]
     if table:
         out.append(points_table(result))
