@@ -77,7 +77,7 @@ def test_every_sweep_metric_has_its_unit(capsys, argv, units):
     text = capsys.readouterr().out
     assert "unit" in text
     for key, unit in units.items():
-        row = next(line for line in text.splitlines() if f"({key})" in line)
+        row = next(line for line in text.splitlines() if f"({key})" in line or f"│ {key} " in line)
         assert f" {unit} " in row, (key, row)
 
 
