@@ -52,10 +52,12 @@ _EXPORTS = {
     "Quantity": "pipeline",
     "bias_point": "pipeline",
     "run_sweep": "pipeline",
+    "mirror_ratio": "pipeline",
     "SweepRequest": "pipeline",
     # large signal
     "operating_point": "dc.operating_point",
     "OperatingPoint": "dc.operating_point",
+    "conducting_point": "dc.states",
     # errors
     "SymbiasError": "errors",
     "NetlistError": "errors",

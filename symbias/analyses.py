@@ -3,17 +3,19 @@
 The analyses wire the steps: circuit -> expanded network -> linear problem
 -> cofactor solve -> formula.  They are pure functions of a circuit.
 
-Sign conventions (SPICE directions):
+Sign conventions (stated once in :mod:`symbias.conventions` and ``docs/conventions.md``):
 
 * An input current source ``I n+ n-`` drives a unit current that flows from
   ``n+`` through the source to ``n-``, i.e. it is delivered into the circuit
-  at ``n-``.
-* The output current of ``current_gain`` and ``transconductance`` is the
-  current that flows out of the output voltage source's ``+`` terminal into
-  the circuit (minus the SPICE branch current).  A sinking (NPN, NMOS) mirror
-  written as ``Iref vcc in`` and ``Vout out 0``, and a sourcing (PNP, PMOS)
-  mirror written as ``Iref in 0`` and ``Vout vcc out``, both have a positive
-  gain: the sign follows the direction in which each source is written.
+  at ``n-`` (the source's value as written).
+* The output current of ``current_gain`` and ``transconductance``,
+  ``iout(Vout)``, counts in the direction the output transistor drives it:
+  into the output node for a sink (npn collector, nmos drain), out of it into
+  the load for a source (pnp collector, pmos drain).  A working mirror of
+  either polarity has a positive gain however ``Vout`` is written
+  (``Vout out 0`` or ``Vout vcc out``).  Without a transistor output at the
+  source, it is the current out of the source's ``+`` terminal into the
+  circuit.  The formula's assumptions state which way each current counts.
 * An input voltage source drives a unit voltage ``v(n+) - v(n-)``.
 * Output voltages are ``v(a) - v(b)`` of the named node pair (``b`` is ground
   for a single node).
@@ -42,6 +44,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from .circuit import GROUND, Circuit, Element
+from .conventions import output_current
 from .errors import AnalysisError, CircuitError, InfiniteResultError
 from .formula import Formula
 from .linear.mna import LinearProblem, solve
@@ -402,15 +405,22 @@ def _transfer(circuit: Circuit, output: str, input: str, options: SmallSignalOpt
     out_kind, in_kind, unit = _TRANSFERS[quantity]
     src = _source(circuit, input, (in_kind,), "input")
     rhs = _drive_current(src) if in_kind == "I" else ((f"i:{src.name}", 1),)
+    signs = []
     if out_kind == "current":
-        out = _source(circuit, output, ("V",), "output")
-        observe, shown = ((f"i:{out.name}", -1),), f"i({out.name})"
+        out = output_current(circuit, _source(circuit, output, ("V",), "output").name)
+        observe, shown = ((f"i:{out.source}", out.sign),), f"iout({out.source})"
+        signs.append(f"sign: {shown} = {out.meaning}")
     else:
         observe, shown = _voltage(*_output_nodes(circuit, output)), f"v({output})"
+    if in_kind == "I":
+        plus, minus = src.nodes[:2]
+        signs.append(f"sign: i({src.name}) = the current of {src.name} as written, from node {plus} through the "
+                     f"source into node {minus}")
     problem = LinearProblem(expand(circuit, options), rhs=rhs, observe=observe)
     label = f"{shown}/{'i' if in_kind == 'I' else 'v'}({src.name})"
-    return _formula(problem, quantity=quantity, label=label, unit=unit, circuit=circuit, options=options,
-                    driven=src.name, backend=backend)
+    formula = _formula(problem, quantity=quantity, label=label, unit=unit, circuit=circuit, options=options,
+                       driven=src.name, backend=backend)
+    return replace(formula, assumptions=formula.assumptions + tuple(signs))
 
 
 def _check_removable(circuit: Circuit, name: str) -> None:

@@ -71,7 +71,8 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_USAGE
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("always", SymbiasWarning)
+            # "default": each distinct warning once per run (a circuit is stamped once per solve)
+            warnings.simplefilter("default", SymbiasWarning)
             warnings.showwarning = _one_line_warning
             status = int(args.func(args) or EXIT_OK)
         sys.stdout.flush()  # a full disk or a closed pipe shows here, inside the handlers below

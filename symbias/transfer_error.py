@@ -11,7 +11,8 @@ has its own leading-order term.
 
 The split covers what a small-signal formula holds.  The DC part of the Early
 effect, a mismatch ``dVCE/VA`` from unequal collector voltages, depends on the
-operating point and is not in a small-signal gain.
+operating point and is not in a small-signal gain: the DC ratio ``Iout/Iin``
+and its error by cause are :mod:`symbias.pipeline.mirror_ratio`'s.
 
 Examples
 --------
@@ -248,7 +249,7 @@ def transfer_error(
         raise AnalysisError(f"the ideal value of {formula.label} is zero; give the ideal transfer explicitly")
     options = dict(tolerance=tolerance, defaults=defaults, samples=samples, seed=seed)
     assumptions = tuple(assumptions)
-    exact = _epsilon(formula, ideal_formula, f"error of {formula.label}")
+    exact = _epsilon(formula, ideal_formula, f"small-signal error of {formula.label}")
     leading = approximate(exact, assumptions, **options)
     causes = []
     for cause, (parameters, _) in CAUSES.items():
@@ -256,7 +257,8 @@ def transfer_error(
         if not symbols:
             continue
         others = [c for c in CAUSES if c != cause]
-        alone = _epsilon(_idealise(formula, others), ideal_formula, f"error of {formula.label} from {cause}")
+        alone = _epsilon(_idealise(formula, others), ideal_formula,
+                         f"small-signal error of {formula.label} from {cause}")
         if alone.ring.is_zero(alone.numerator):
             continue
         causes.append(ErrorCause(cause, symbols, alone, approximate(alone, assumptions, **options)))

@@ -24,7 +24,11 @@ Conventions followed (as documented in ``symbias/network.py``,
 * SPICE directions: ``I n+ n-`` delivers its current into ``n-``; a VCCS or
   CCCS current flows from ``n+`` through the element to ``n-``; a voltage
   source's branch current flows from ``n+`` through the source to ``n-``.
-  Output currents are minus that branch current (out of the ``+`` terminal).
+* Output currents (``docs/conventions.md``) count the way the transistor
+  whose collector or drain is at one node of the output source drives them:
+  into that node for npn/nmos (a sink), out of it for pnp/pmos (a source).
+  Without such a transistor at exactly one of the two nodes, the output
+  current is minus the branch current (out of the ``+`` terminal).
 
 Examples
 --------
@@ -49,6 +53,7 @@ __all__ = [
     "ReferenceSingular",
     "reference_branches",
     "reference_value",
+    "output_sign",
     "nodal_entries",
     "reference_symbols",
     "random_values",
@@ -457,6 +462,23 @@ def _find(circuit, name: str):
     return None
 
 
+def output_sign(circuit, source) -> int:
+    """Output current = sign * branch current of ``source``, by the rule of docs/conventions.md."""
+    sides = []
+    for node in source.nodes[:2]:
+        if node == GROUND:
+            continue
+        drivers = [e for e in circuit.elements if e.kind in ("Q", "M") and e.nodes[0] == node]
+        if drivers:
+            sides.append((node, drivers[0]))
+    if len(sides) != 1:
+        return -1
+    node, device = sides[0]
+    sources = circuit.model_of(device).type in ("pnp", "pmos")
+    into_load = 1 if node == source.nodes[0] else -1  # the branch current enters at the + node
+    return into_load if sources else -into_load
+
+
 def _pair(circuit, text: str) -> tuple[str, str]:
     """An output voltage: an element's terminals, a node, or ``"a,b"``."""
     if "," in text:
@@ -563,7 +585,8 @@ def reference_value(
         else:
             drive = {f"i:{src.name}": 1.0}  # unit source voltage
         if quantity in ("current_gain", "transconductance"):
-            observe = {f"i:{_find(circuit, out).name}": -1.0}  # out of the + terminal
+            element = _find(circuit, out)
+            observe = {f"i:{element.name}": output_sign(circuit, element)}
         else:
             a, b = _pair(circuit, out)
             observe = {f"v:{a}": 1.0, f"v:{b}": -1.0}

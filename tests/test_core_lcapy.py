@@ -29,7 +29,7 @@ import sympy
 
 sys.path.insert(0, str(Path(__file__).parent))  # the reference solver lives beside the tests
 
-from reference_solver import GROUND, reference_branches  # noqa: E402
+from reference_solver import GROUND, output_sign, reference_branches  # noqa: E402
 
 from symbias.analyses import QUANTITIES, SmallSignalOptions  # noqa: E402
 from symbias.netlist import read_netlist  # noqa: E402
@@ -129,7 +129,9 @@ def lcapy_result(deck: Path, option_name: str, name: str, args: tuple[str, ...])
     if name == "output_resistance":
         result = voltage(removed.nodes)
     elif name in ("current_gain", "transconductance"):
-        result = -getattr(cct, f"V_{circuit.element(args[0]).name}").I.s.sympy
+        # lcapy's source current is SPICE's branch current; the output current's sign is docs/conventions.md's
+        output = circuit.element(args[0])
+        result = output_sign(circuit, output) * getattr(cct, f"V_{output.name}").I.s.sympy
     else:
         target = args[0].lower()
         pair = circuit.element(target).nodes if circuit.has_element(target) else (target, GROUND)

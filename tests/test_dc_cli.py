@@ -80,9 +80,9 @@ def test_sweep_compliance_json_and_plot(tmp_path, capsys):
     plot = tmp_path / "iout.png"
     data = _json(capsys, ["sweep", str(DECKS / "bjt_cascode_mirror.cir"), "--vary", "Vout", "--from", "0",
                           "--to", "5", "--points", "101", "--plot", str(plot), "--json"])
-    assert data["kind"] == "compliance" and data["output"] == "I(Vout)"
+    assert data["kind"] == "compliance" and data["output"] == "Iout(Vout)"  # the output-current convention
     assert 0.8 < data["metrics"]["by_region_low"] < 0.9 and data["metrics"]["device_low"].startswith("Q4")
-    assert len(data["values"]) == 101 and len(data["outputs"]["I(Vout)"]) == 101
+    assert len(data["values"]) == 101 and len(data["outputs"]["Iout(Vout)"]) == 101
     assert plot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
 
 
@@ -93,7 +93,7 @@ def test_sweep_temperature_and_supply(capsys):
     assert temp["metrics"]["box_tc_ppm"] > 0
     line = _json(capsys, ["sweep", str(DECKS / "widlar_source.cir"), "--vary", "Vcc", "--from", "4", "--to", "6",
                           "--points", "21", "--json"])
-    assert line["kind"] == "line" and line["output"] == "I(Vout)"
+    assert line["kind"] == "line" and line["output"] == "Iout(Vout)"
     assert line["metrics"]["percent_per_volt"] > 0
 
 

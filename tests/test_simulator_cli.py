@@ -17,7 +17,7 @@ import warnings
 import pytest
 
 from symbias.cli import main
-from symbias.errors import CircuitError, SimulatorError, SimulatorWarning
+from symbias.errors import CircuitError, ModelWarning, SimulatorError, SimulatorWarning
 from symbias.netlist import parse_netlist
 from symbias.pipeline import DeriveRequest, derive, design_inputs, load_target, parse_quantity
 from symbias.simulator.ngspice import run_ngspice
@@ -27,6 +27,7 @@ pytestmark = pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice
 
 CASCODE = "tests/decks/simulator/bsim4_cascode.cir"
 MIRROR = "tests/decks/simulator/corner_mirror.cir"
+HAND = "tests/decks/simulator/hand_process.toml"  # level-1 values for the BSIM4 card's device
 BSIM4 = "t\nVd d 0 1\nVg g 0 1\nM1 d g 0 0 NX W=1u L=0.5u\n.model NX nmos (level=54 {card})\n"
 
 
@@ -64,8 +65,12 @@ def test_derive_at_bias_takes_the_simulator_values(capsys):
     request = DeriveRequest(quantities=(parse_quantity("output_resistance", "Vout", "--rout"),),
                             at_bias=design_inputs(target, models="ngspice"))
     assert value == pytest.approx(derive(target, request).results[0].value, rel=1e-12)
-    built_in = derive(target, DeriveRequest(quantities=request.quantities, at_bias=design_inputs(target)))
-    assert abs(built_in.results[0].value / value - 1) > 0.5  # the level-54 card is not level 1
+    with pytest.raises(CircuitError, match="LEVEL=54 is not modelled"):  # the card alone means nothing at level 1
+        derive(target, DeriveRequest(quantities=request.quantities, at_bias=design_inputs(target)))
+    with pytest.warns(ModelWarning):
+        hand = design_inputs(target, process=HAND)
+        built_in = derive(target, DeriveRequest(quantities=request.quantities, at_bias=hand))
+    assert abs(built_in.results[0].value / value - 1) > 0.5  # square-law hand values are not the BSIM4 card
 
 
 def test_a_column_per_corner(capsys):
@@ -77,7 +82,7 @@ def test_a_column_per_corner(capsys):
 
 
 def test_model_check_shows_where_the_built_in_models_stop_describing_the_process(capsys):
-    status, out, _ = _run(capsys, "bias", CASCODE, "--compare-models", "--json")
+    status, out, _ = _run(capsys, "bias", CASCODE, "--compare-models", "--process", HAND, "--json")
     assert status == 0
     rows = {(r["item"], r["quantity"]): r for r in json.loads(out)["comparisons"][0]["rows"]}
     assert abs(rows[("M2", "ro")]["relative"]) > 0.5  # symbias's square law on a level-54 card

@@ -95,7 +95,8 @@ def _approximation_arguments(approx) -> None:
                         help="normalised sensitivities (x/F) dF/dx, at the operating point with --at-bias, "
                              "else at the centre of the assumed ranges")
     approx.add_argument("--mirror-error", action="store_true",
-                        help="for current gains: error 1 - gain/ideal, to leading order and split by cause")
+                        help="for current gains: small-signal error 1 - gain/ideal, to leading order and split by "
+                             "cause; with --at-bias also the DC ratio Iout/Iin and its error by cause")
 
 
 def options_of(args: argparse.Namespace):

@@ -1,8 +1,9 @@
 """``symbias sweep``: sweep an output voltage, the supply or the temperature, and report metrics.
 
 Wires: arguments -> :func:`symbias.pipeline.run_sweep` -> a table
-(:mod:`symbias.render.dc`), JSON, and optionally a plot
-(:mod:`symbias.render.plots`, matplotlib imported only for ``--plot``).  See
+(:mod:`symbias.render.dc`, with ``--table`` the points too), JSON, and
+optionally a plot (:mod:`symbias.render.plots`, matplotlib imported only for
+``--plot``) and a CSV file of the points (:mod:`symbias.render.csv_table`).  See
 :mod:`symbias.pipeline.sweeps` for the kinds of sweep and their metrics.
 
 Examples
@@ -43,6 +44,9 @@ def register(subparsers) -> None:
     p.add_argument("--basis", choices=("tangent", "level"), default="tangent",
                    help="compliance: measure the departure from the tangent at mid-sweep or from its level")
     p.add_argument("--plot", metavar="FILE.png", help="write a plot (.png, .svg or .pdf; needs matplotlib)")
+    p.add_argument("--csv", metavar="FILE.csv", help="write every point (swept value, output, node voltages, "
+                   "branch currents, regions) as CSV")
+    p.add_argument("--table", action="store_true", help="also print a table of the points")
     p.set_defaults(func=run)
 
 
@@ -69,6 +73,8 @@ def run(args: argparse.Namespace) -> int:
 
     if args.plot:
         check_destination(args.plot, _PLOT_SUFFIXES, "--plot")  # before any work
+    if args.csv:
+        check_destination(args.csv, (".csv",), "--csv")
     target = target_of(args)
     inputs = inputs_of(args, target)
     request = SweepRequest(args.vary, args.start, args.stop, args.points, args.out, args.fraction, args.basis)
@@ -81,6 +87,11 @@ def run(args: argparse.Namespace) -> int:
 
         kind = args.plot.rsplit(".", 1)[1].lower()
         write_atomic(args.plot, lambda temporary: sweep_plot(result, temporary, kind), "--plot")
+    if args.csv:
+        from ..render.csv_table import sweep_csv
+        from ..render.files import write_text
+
+        write_text(args.csv, sweep_csv(result), "--csv")
     if args.json:
         from ..render.json import sweep_record
 
@@ -88,5 +99,5 @@ def run(args: argparse.Namespace) -> int:
     else:
         from ..render.dc import sweep_renderables
 
-        print_renderables(sweep_renderables(target, result))
+        print_renderables(sweep_renderables(target, result, table=args.table))
     return 0

@@ -1,8 +1,10 @@
 """Solve every point of a sweep in a few batches, each point warm-started from solved neighbours.
 
 Fourth step of the DC side, under :mod:`symbias.dc.sweep`.  A sweep is
-solved coarse to fine: the first point from scratch (or a guess), the last
-point from the first, then the points on a grid of stride ``8**k``, then
+solved coarse to fine: the anchor point first (by default the first point,
+from scratch or a guess; or the point nearest the nominal one, from the
+nominal solution, so the sweep continues the state the operating point
+reports), the last point, then the points on a grid of stride ``8**k``, then
 ``8**(k-1)``, ... down to every point; each level is one batched solve whose
 samples start from the linear interpolation of the solved points around
 them.  This is continuation - every point starts next to a solution on the
@@ -81,9 +83,9 @@ class _Sweep:
         self.methods = np.full(count, "", dtype=object)
         self.solved = np.zeros(count, dtype=bool)
 
-    def keep(self, points: np.ndarray, found: BatchSolution) -> np.ndarray:
-        """Store the converged samples; return the points that failed."""
-        ok = found.converged
+    def keep(self, points: np.ndarray, found: BatchSolution, accepted: np.ndarray | None = None) -> np.ndarray:
+        """Store the converged (and accepted) samples; return the points that failed."""
+        ok = found.converged if accepted is None else found.converged & accepted
         good = points[ok]
         self.x[good] = found.x[ok]
         for target, value in zip(self.state, found.state):
@@ -110,13 +112,21 @@ class _Sweep:
 
 
 def solve_sweep(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None = None, *,
-                guess: Mapping[str, float] | None = None, options: DcOptions = DcOptions(),
-                progress: Callable[[int, int], None] | None = None, variable: str = "point") -> BatchSolution:
+                guess: Mapping[str, float] | None = None, start=None, anchor: int = 0,
+                accept: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
+                options: DcOptions = DcOptions(), progress: Callable[[int, int], None] | None = None,
+                variable: str = "point") -> BatchSolution:
     """Solve every point of a sweep (see the module docstring).
 
     ``grid`` holds the swept values (for the interpolation); ``overrides``
     the source values per point, arrays of the grid's length; the system
-    may itself be batched over the points (a temperature sweep).
+    may itself be batched over the points (a temperature sweep).  The point
+    ``anchor`` is solved first, warm-started from ``start`` (a solution, or
+    an unknown vector) when one is given; the others continue from it.
+    ``accept(points, x)`` (optional) tells which warm-started solutions lie on
+    the branch being followed: the others wait for closer neighbours, and the
+    last points are retried outward from the anchor, so a self-biased cell
+    does not fall onto its zero-current state where its conducting one exists.
 
     Raises
     ------
@@ -130,14 +140,17 @@ def solve_sweep(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.n
     def run(points: np.ndarray, start, fallback: bool) -> np.ndarray:
         found = solve_batch(system, overrides=_subset(overrides, points), start=start, guess=guess, options=options,
                             index=points, fallback=fallback)
-        failed = sweep.keep(points, found)
+        accepted = None if fallback or accept is None else accept(points, found.x)
+        failed = sweep.keep(points, found, accepted)
         if fallback and failed.size:
             _, error = found.errors[0]
             value = grid[failed[0]]
             raise ConvergenceError(f"{variable} = {value:g}: {error.reason}", error.path, error.line)
         return failed
 
-    run(np.array([0]), None, True)
+    if not 0 <= anchor < count:
+        raise ConvergenceError(f"sweep anchor {anchor} is outside the {count} points")
+    run(np.array([anchor]), start, True)
     for stride in levels(count):
         targets = np.arange(0, count, stride)
         if stride > 1 and not sweep.solved[count - 1]:
@@ -146,7 +159,8 @@ def solve_sweep(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.n
         if targets.size:
             failed = run(targets, sweep.seeds(targets), fallback=False)
             if stride == 1:
-                for point in failed:  # the last resort: from the nearest solved neighbour, the whole chain
+                # the last resort, outward from the anchor: from the nearest solved neighbour, the whole chain
+                for point in sorted(failed.tolist(), key=lambda i: abs(i - anchor)):
                     run(np.array([point]), sweep.seeds(np.array([point])), fallback=True)
         if progress is not None:
             progress(int(sweep.solved.sum()), count)

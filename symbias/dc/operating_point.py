@@ -52,9 +52,9 @@ from ..devices.nonlinear import MAX_CURRENT
 from ..errors import SymbiasError
 from ..process import Process
 from .newton import DcOptions
-from .report import report_batch, violations
+from .report import report_batch, report_point, violations
 from .results import DeviceOperatingPoint, DeviceOperatingPoints, OperatingPoint, OperatingPoints
-from .stepping import BatchSolution, Solution, solve, solve_batch
+from .stepping import solve, solve_batch
 from .system import DcSystem, build_system
 
 __all__ = ["OperatingPoint", "DeviceOperatingPoint", "OperatingPoints", "DeviceOperatingPoints", "operating_point",
@@ -65,7 +65,10 @@ def operating_point(circuit: Circuit, process: Process | None = None, temperatur
                     values: Mapping[str, float] | None = None, *, overrides: Mapping[str, float] | None = None,
                     start: OperatingPoint | None = None, guess: Mapping[str, float] | None = None,
                     options: DcOptions = DcOptions(), parameters: Mapping[str, float] | None = None) -> OperatingPoint:
-    """Solve the DC operating point of ``circuit``.
+    """Solve the DC operating point of ``circuit``: the state Newton reaches from its start.
+
+    For a self-biased cell, :func:`symbias.dc.states.conducting_point` finds the
+    conducting state and lists the others (what every command reports).
 
     Parameters
     ----------
@@ -101,19 +104,8 @@ def operating_point(circuit: Circuit, process: Process | None = None, temperatur
     return report(system, solution, overrides)
 
 
-def report(system: DcSystem, solution: Solution, overrides: Mapping[str, Any] | None = None) -> OperatingPoint:
-    """Build the :class:`OperatingPoint` of a converged solution.
-
-    Raises
-    ------
-    CircuitError
-        When the solution lies outside what the device models describe (:func:`check_plausible`).
-    AnalysisError
-        When it is not finite.
-    """
-    batch = BatchSolution(solution.x[None, :], tuple(s[None] for s in solution.state),
-                          np.array([solution.iterations]), (solution.method,))
-    return report_batch(system, batch, overrides).point(0)
+#: The operating point of one converged solution (:func:`symbias.dc.report.report_point`).
+report = report_point
 
 
 def check_plausible(system: DcSystem, x: np.ndarray) -> None:
@@ -137,6 +129,21 @@ def _nominal(value):
     return float(array[np.argmin(np.abs(array - np.median(array)))])
 
 
+def _nominal_start(circuit, process, temperature, values, overrides, guess, options) -> OperatingPoint | None:
+    """The nominal operating point every sample starts from: the conducting state (the sources as given)."""
+    from .states import conducting_point
+
+    nominal_values = {k: _nominal(v) for k, v in (values or {}).items()}
+    try:
+        if overrides:
+            return operating_point(circuit, process, _nominal(temperature), nominal_values,
+                                   overrides={k: _nominal(v) for k, v in overrides.items()}, guess=guess,
+                                   options=options)
+        return conducting_point(circuit, process, _nominal(temperature), nominal_values, guess=guess, options=options)
+    except SymbiasError:
+        return None  # no nominal point: every sample starts from scratch
+
+
 def operating_points(circuit: Circuit, process: Process | None = None, samples: Mapping[str, Any] | None = None,
                      temperature=27.0, values: Mapping[str, Any] | None = None, *,
                      overrides: Mapping[str, Any] | None = None, guess: Mapping[str, float] | None = None,
@@ -145,7 +152,9 @@ def operating_points(circuit: Circuit, process: Process | None = None, samples: 
 
     Every sample starts Newton from the nominal solution (``start``, or the
     circuit solved without the samples, with each other array replaced by
-    its median sample), so a self-biased cell stays on its conducting state;
+    its median sample, on its conducting state as
+    :func:`~symbias.dc.states.conducting_point` finds it), so a self-biased
+    cell stays on its conducting state;
     samples that do not converge go on through gmin and source stepping on
     their own.  A sample
     that still fails is listed in :attr:`OperatingPoints.errors` with its
@@ -168,13 +177,7 @@ def operating_points(circuit: Circuit, process: Process | None = None, samples: 
     """
     system = build_system(circuit, process, temperature, values, samples=samples)
     if start is None:
-        try:
-            start = operating_point(circuit, process, _nominal(temperature),
-                                    {k: _nominal(v) for k, v in (values or {}).items()},
-                                    overrides={k: _nominal(v) for k, v in (overrides or {}).items()}, guess=guess,
-                                    options=options)
-        except SymbiasError:
-            start = None  # no nominal point: every sample starts from scratch
+        start = _nominal_start(circuit, process, temperature, values, overrides, guess, options)
     solution = solve_batch(system, overrides=overrides, start=start.solution if start else None, guess=guess,
                            options=options)
     return report_batch(system, solution, overrides)

@@ -27,11 +27,11 @@ import numpy as np
 from ..circuit import GROUND
 from ..errors import AnalysisError, CircuitError, SymbiasError
 from .newton import bank_numbers, device_controls
-from .results import DeviceOperatingPoints, OperatingPoints
-from .stepping import BatchSolution
+from .results import DeviceOperatingPoints, OperatingPoint, OperatingPoints
+from .stepping import BatchSolution, Solution
 from .system import DcSystem
 
-__all__ = ["report_batch", "violations"]
+__all__ = ["report_batch", "report_point", "violations"]
 
 
 def _evaluated(system: DcSystem, x: np.ndarray) -> list[tuple]:
@@ -155,3 +155,18 @@ def report_batch(system: DcSystem, solution: BatchSolution,
                                tuple(sorted(errors.items()))),
         errors=tuple(sorted(errors.items())),
     )
+
+
+def report_point(system: DcSystem, solution: Solution, overrides: Mapping[str, Any] | None = None) -> OperatingPoint:
+    """The :class:`~symbias.dc.results.OperatingPoint` of one converged solution.
+
+    Raises
+    ------
+    CircuitError
+        When the solution lies outside what the device models describe (:func:`violations`).
+    AnalysisError
+        When it is not finite.
+    """
+    batch = BatchSolution(solution.x[None, :], tuple(s[None] for s in solution.state),
+                          np.array([solution.iterations]), (solution.method,))
+    return report_batch(system, batch, overrides).point(0)

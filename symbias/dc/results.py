@@ -172,6 +172,10 @@ class OperatingPoint:
     iterations : int
     solution : Solution
         The solver's state, to warm-start a nearby solve.
+    states : StateSurvey or None
+        The other DC states found beside this one and why this one was
+        chosen (:func:`symbias.dc.states.conducting_point`); None when no
+        search was made.
     """
 
     title: str
@@ -184,6 +188,7 @@ class OperatingPoint:
     method: str
     iterations: int
     solution: Any = field(repr=False, compare=False)
+    states: Any = field(default=None, repr=False, compare=False)
 
     _MAPPINGS = ("node_voltages", "branch_currents", "element_currents", "devices")
 
@@ -268,6 +273,7 @@ class OperatingPoint:
             "devices": {name: dev.to_dict() for name, dev in self.devices.items()},
             "method": self.method,
             "iterations": self.iterations,
+            **({"states": self.states.to_dict()} if self.states is not None else {}),
         }
 
 

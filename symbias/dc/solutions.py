@@ -57,11 +57,13 @@ from ..devices.nonlinear import ION_MIN
 from ..errors import AnalysisError, SymbiasError
 from ..process import Process
 from .newton import DcOptions, initial_state, newton, residual
-from .operating_point import OperatingPoint, report
+from .report import report_point as report
+from .results import OperatingPoint
 from .stepping import Solution, power_up, solve
 from .system import DcSystem, build_system
 
-__all__ = ["DcState", "Solutions", "find_solutions", "off_voltages", "ZERO_FRACTION", "LEAKAGE_LIMIT"]
+__all__ = ["DcState", "Solutions", "find_solutions", "search_states", "off_voltages", "same_state", "ZERO_FRACTION",
+           "LEAKAGE_LIMIT"]
 
 #: A state whose total transistor current is below this fraction of the largest is "zero-current".
 ZERO_FRACTION = 1e-3
@@ -199,7 +201,14 @@ def _starts(system: DcSystem, random_starts: int, seed: int):
         yield f"random start {k + 1}", x, None
 
 
-def _same(a: np.ndarray, b: np.ndarray, n_nodes: int, tol: float = 1e-5) -> bool:
+def same_state(a: np.ndarray, b: np.ndarray, n_nodes: int, tol: float = 1e-5) -> bool:
+    """True when two unknown vectors hold the same node voltages (``tol`` relative, plus ``tol`` volts).
+
+    Examples
+    --------
+    >>> same_state(np.array([1.0, 0.5]), np.array([1.0 + 1e-7, 0.5]), 2)
+    True
+    """
     return bool(np.all(np.abs(a[:n_nodes] - b[:n_nodes]) <= tol * (1.0 + np.abs(b[:n_nodes]))))
 
 
@@ -214,33 +223,59 @@ def find_solutions(circuit: Circuit, process: Process | None = None, temperature
         When no start converges at all.
     """
     system = build_system(circuit, process, temperature, values)
+    return search_states(system, random_starts=random_starts, seed=seed, options=options)
+
+
+def search_states(system: DcSystem, *, known: tuple[tuple[str, Solution], ...] = (), random_starts: int = 12,
+                  seed: int = 0, options: DcOptions = DcOptions()) -> Solutions:
+    """Every DC state of a built system reachable from the starts of the module docstring.
+
+    ``known`` solutions (label, solution) - an operating point already solved -
+    join the states found.  The plain-Newton starts run as one batch per
+    starting device state, so the search costs a few batched Newton runs plus
+    gmin and source stepping.
+
+    Raises
+    ------
+    AnalysisError
+        When no start converges at all.
+    """
     rhs = system.rhs()
     n_nodes = system.node_count
     found: list[tuple[Solution, list[str]]] = []
-    tried = 0
 
     def keep(label: str, solution: Solution) -> None:
-        for known, labels in found:
-            if _same(solution.x, known.x, n_nodes):
+        for seen, labels in found:
+            if same_state(solution.x, seen.x, n_nodes):
                 labels.append(label)
                 return
         found.append((solution, [label]))
 
-    for label, x0, kind in _starts(system, random_starts, seed):
-        tried += 1
+    for label, solution in known:
+        keep(label, solution)
+    starts = list(_starts(system, random_starts, seed))
+    for kind in ("on", "off", None):
         # kind None: the device state the start's node voltages imply
-        attempt = newton(system, rhs, x0[None, :], start_kind=kind, max_iterations=options.max_iterations,
-                         options=options)
-        if attempt.converged[0]:
-            keep(label, Solution(attempt.x[0], tuple(s[0] for s in attempt.state), int(attempt.iterations[0]),
-                                 label))
+        group = [(label, x0) for label, x0, k in starts if k == kind]
+        attempt = newton(system, rhs, np.stack([x0 for _, x0 in group]), start_kind=kind,
+                         max_iterations=options.max_iterations, options=options)
+        for k, (label, _) in enumerate(group):
+            if attempt.converged[k]:
+                keep(label, Solution(attempt.x[k], tuple(s[k] for s in attempt.state), int(attempt.iterations[k]),
+                                     label))
+    tried = len(starts) + 2
     for label, kind in (("source stepping from zero", "off"), ("gmin stepping", "on")):
-        tried += 1
         try:
             keep(label, solve(system, start_kind=kind, options=options) if kind == "on"
                  else power_up(system, options))
         except SymbiasError:
             continue
+    return _classify(system, rhs, found, tried)
+
+
+def _classify(system: DcSystem, rhs: np.ndarray, found: list, tried: int) -> Solutions:
+    """Report each distinct solution, add the all-off state held by leakage, and flag zero-current states."""
+    n_nodes = system.node_count
     states = []
     for solution, labels in found:
         try:
@@ -249,13 +284,13 @@ def find_solutions(circuit: Circuit, process: Process | None = None, temperature
             continue  # a start that landed outside the models' validity is not a state of the circuit
         states.append((point, labels, True))
     leak = _held_by_leakage(system, rhs)
-    if leak is not None and not any(_same(leak.solution.x, p.solution.x, n_nodes, 1e-2) for p, _, _ in states):
+    if leak is not None and not any(same_state(leak.solution.x, p.solution.x, n_nodes, 1e-2) for p, _, _ in states):
         states.append((leak, ["all off"], False))
     if not states:
-        raise AnalysisError("no DC solution found from any start", path=circuit.path)
+        raise AnalysisError("no DC solution found from any start", path=system.circuit.path)
     totals = [sum(abs(d.output_current) for d in p.devices.values()) for p, _, _ in states]
     largest = max(totals)
-    floor = ION_MIN * max(1, len(circuit.devices))
+    floor = ION_MIN * max(1, len(system.circuit.devices))
     result = []
     for (point, labels, exact), total in sorted(zip(states, totals), key=lambda item: item[1]):
         zero = total < max(ZERO_FRACTION * largest, floor)

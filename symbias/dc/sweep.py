@@ -44,6 +44,7 @@ from typing import Callable, Mapping
 import numpy as np
 
 from ..circuit import Circuit
+from ..conventions import output_current
 from ..devices.nonlinear import working_regions
 from ..errors import CircuitError, SymbiasError
 from ..process import Process
@@ -52,6 +53,7 @@ from .newton import DcOptions
 from .operating_point import OperatingPoint, report
 from .report import report_batch
 from .results import OperatingPoints
+from .states import branch_test
 from .stepping import solve
 from .system import DcSystem, build_system
 
@@ -130,7 +132,10 @@ class Sweep:
         return self.results.point(i)
 
     def probe(self, name: str) -> np.ndarray:
-        """Values of ``V(node)``, ``I(element)``, a node name or an element name along the sweep.
+        """Values of ``V(node)``, ``I(element)``, ``Iout(source)``, a node or an element name along the sweep.
+
+        ``I(Vx)`` is SPICE's branch current (positive into the + terminal);
+        ``Iout(Vx)`` the output current in the sign of :mod:`symbias.conventions`.
 
         Examples
         --------
@@ -139,10 +144,7 @@ class Sweep:
         >>> sweep_source(c, "V1", 1, 2, 2).probe("I(R1)").tolist()
         [0.001, 0.002]
         """
-        kind, key = _parse_probe(name, self.circuit)
-        if kind == "V":
-            return self.results.voltage(key).copy()
-        return self.results.current(key).copy()
+        return _probe(self.results, name, self.circuit)
 
     def regions(self, device: str) -> tuple[str, ...]:
         """Region of ``device`` at each point."""
@@ -164,20 +166,23 @@ class Sweep:
 def _parse_probe(name: str, circuit: Circuit) -> tuple[str, str]:
     text = name.strip()
     low = text.lower()
+    if low.startswith("iout(") and low.endswith(")"):
+        return "Iout", text[5:-1].strip()
     if low.startswith(("v(", "i(")) and low.endswith(")"):
         return low[0].upper(), text[2:-1].strip()
     if low in circuit.nodes or low == "gnd":
         return "V", low
     if circuit.has_element(text):
         return "I", text
-    raise CircuitError(f"unknown output {name!r}: give V(node), I(element), a node or an element name",
+    raise CircuitError(f"unknown output {name!r}: give V(node), I(element), Iout(source), a node or an element name",
                        path=circuit.path)
 
 
 def _run(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None, variable: str,
          circuit: Circuit, process, temperature, system_values, guess, options: DcOptions,
-         progress: Progress | None) -> Sweep:
-    solution = solve_sweep(system, grid, overrides, guess=guess, options=options, progress=progress,
+         progress: Progress | None, follow: OperatingPoint | None = None, anchor: int = 0) -> Sweep:
+    solution = solve_sweep(system, grid, overrides, guess=guess, start=follow.solution if follow else None,
+                           anchor=anchor, accept=branch_test(system, follow), options=options, progress=progress,
                            variable=variable)
     results = report_batch(system, solution, overrides)
     if results.errors:
@@ -188,11 +193,14 @@ def _run(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray]
 def sweep_source(circuit: Circuit, source: str, start: float, stop: float, points: int = 201, *,
                  process: Process | None = None, temperature: float = 27.0,
                  values: Mapping[str, float] | None = None, guess: Mapping[str, float] | None = None,
-                 options: DcOptions = DcOptions(), progress: Progress | None = None) -> Sweep:
+                 options: DcOptions = DcOptions(), progress: Progress | None = None,
+                 follow: OperatingPoint | None = None) -> Sweep:
     """Sweep the DC value of an independent source (``Vout`` for compliance, ``VDD`` for line sensitivity).
 
     Every point is solved in a few batches, each point starting from solved
-    neighbours (:mod:`symbias.dc.continuation`).
+    neighbours (:mod:`symbias.dc.continuation`).  With ``follow`` (the
+    operating point at the netlist's value, on the state to follow) the
+    point nearest the netlist's value is solved first, from it.
 
     Raises
     ------
@@ -203,20 +211,27 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
     """
     grid = sweep_points(start, stop, points)
     system = build_system(circuit, process, temperature, values)
-    system.source_value(source)
+    nominal = system.source_value(source)
     name = circuit.element(source).name
+    anchor = int(np.argmin(np.abs(grid - nominal))) if follow is not None else 0
     return _run(system, grid, {source: grid}, name, circuit, process, temperature, values, guess, options,
-                progress)
+                progress, follow, anchor)
 
 
 def sweep_temperature(circuit: Circuit, start: float, stop: float, points: int = 201, *,
                       process: Process | None = None, values: Mapping[str, float] | None = None,
                       guess: Mapping[str, float] | None = None, options: DcOptions = DcOptions(),
-                      progress: Progress | None = None) -> Sweep:
-    """Sweep the temperature (degC): every model and resistor is evaluated at each point (one batched system)."""
+                      progress: Progress | None = None, follow: OperatingPoint | None = None) -> Sweep:
+    """Sweep the temperature (degC): every model and resistor is evaluated at each point (one batched system).
+
+    With ``follow`` (an operating point on the state to follow) the point
+    nearest its temperature is solved first, from it.
+    """
     grid = sweep_points(start, stop, points)
     system = build_system(circuit, process, grid, values)
-    return _run(system, grid, None, "temp", circuit, process, float(start), values, guess, options, progress)
+    anchor = int(np.argmin(np.abs(grid - follow.temperature))) if follow is not None else 0
+    return _run(system, grid, None, "temp", circuit, process, float(start), values, guess, options, progress,
+                follow, anchor)
 
 
 # -- compliance --------------------------------------------------------------------------------------
@@ -318,7 +333,7 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
     slope_line = (lambda v: iref + slope * (v - x[ref])) if basis == "tangent" else (lambda v: iref)
 
     def current_fails(point: OperatingPoint, v: float) -> bool:
-        return (slope_line(v) - abs(_probe_point(point, probe, sweep.circuit))) / abs(iref) > fraction
+        return (slope_line(v) - abs(_probe(point, probe, sweep.circuit))) / abs(iref) > fraction
 
     reference_point = sweep.point(ref)
 
@@ -356,9 +371,15 @@ def _region_changes(sweep: Sweep, reference: OperatingPoint) -> np.ndarray:
     return flags
 
 
-def _probe_point(point: OperatingPoint, name: str, circuit: Circuit) -> float:
+def _probe(results, name: str, circuit: Circuit):
+    """A probe's value(s) in an OperatingPoint or OperatingPoints (arrays are copied)."""
     kind, key = _parse_probe(name, circuit)
-    return point.voltage(key) if kind == "V" else point.current(key)
+    if kind == "V":
+        return np.copy(results.voltage(key)) if isinstance(results, OperatingPoints) else results.voltage(key)
+    value = results.current(key)
+    if kind == "Iout":
+        value = output_current(circuit, key).sign * value
+    return np.copy(value) if isinstance(results, OperatingPoints) else value
 
 
 def _bisect(sweep: Sweep, good: int, bad: int, fails, options: DcOptions, tol: float = 1e-5) -> float:

@@ -43,6 +43,7 @@ from typing import Mapping
 import numpy as np
 
 from .dc_context import DcStamp, DeviceStamp
+from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation, pn_limit,
                         safe_exp, safe_exp_and_slope, safe_exp_slope)
 from .temperature import kelvin, thermal_voltage
@@ -81,6 +82,19 @@ _REGIONS = np.array(["active", "saturation", "cutoff", "reverse"])
 
 #: Parameters the model reads (``AIS`` is the mismatch coefficient, see :func:`bjt_mismatch`).
 BJT_PARAMETERS = ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO", "AIS")
+#: Valid range of each parameter and what it is (checked where a device is stamped).
+BJT_RANGES: dict[str, tuple[Range, str]] = {
+    "IS": (POSITIVE, "transport saturation current, A"),
+    "BF": (POSITIVE, "forward current gain"),
+    "BR": (POSITIVE, "reverse current gain"),
+    "NF": (POSITIVE, "forward emission coefficient"),
+    "NR": (POSITIVE, "reverse emission coefficient"),
+    "VAF": (NON_NEGATIVE, "forward Early voltage, V; 0 means none"),
+    "EG": (POSITIVE, "band gap, eV"),
+    "BVEBO": (POSITIVE, "emitter-base reverse voltage the model accepts, V"),
+    "AIS": (NON_NEGATIVE, "mismatch coefficient of IS"),
+    "TNOM": (ABOVE_ZERO_KELVIN, "nominal temperature, degC"),
+}
 
 
 @dataclass(frozen=True)
@@ -372,6 +386,8 @@ def bjt_numbers(params: Mapping[str, object], celsius) -> BjtAtTemperature:
 
 def _stamp(model: DeviceModel, element, context) -> DcStamp:
     type_, params, tnom = context.model_parameters(element)
+    review_parameters(element, context, {**params, "TNOM": tnom}, model_name="bipolar model",
+                      ranges=BJT_RANGES, modelled=(*BJT_PARAMETERS, "TNOM"), essentials=("IS",))
     merged = {**BJT_DEFAULTS, **params}
     numbers = {name: merged[name] for name in ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO")}
     numbers.update(TNOM=tnom, polarity=-1.0 if type_ == "pnp" else 1.0,

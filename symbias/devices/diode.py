@@ -38,14 +38,14 @@ Examples
 from __future__ import annotations
 
 import math
-import warnings
 from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
 
-from ..errors import CircuitError, ModelWarning
+from ..errors import CircuitError
 from .dc_context import DcStamp, DeviceStamp
+from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, Violation, pn_critical_voltage, pn_limit,
                         safe_exp, safe_exp_slope)
 from .temperature import BOLTZMANN, CHARGE, kelvin, thermal_voltage
@@ -69,6 +69,23 @@ DIODE_DEFAULTS: dict[str, float] = {
 #: Parameters the model reads (``AIS``: mismatch coefficient, as for a BJT).
 DIODE_PARAMETERS = (*DIODE_DEFAULTS, "AIS")
 _ALIASES = {"CJ0": "CJO", "CJ": "CJO", "PB": "VJ", "MJ": "M"}
+#: Valid range of each parameter and what it is (checked where a device is stamped).
+DIODE_RANGES: dict[str, tuple[Range, str]] = {
+    "IS": (POSITIVE, "saturation current, A"),
+    "N": (POSITIVE, "emission coefficient"),
+    "RS": (NON_NEGATIVE, "series resistance, ohm"),
+    "BV": (POSITIVE, "reverse breakdown voltage, V"),
+    "IBV": (POSITIVE, "current at the breakdown voltage, A"),
+    "NBV": (POSITIVE, "breakdown emission coefficient"),
+    "EG": (POSITIVE, "band gap, eV"),
+    "CJO": (NON_NEGATIVE, "zero-bias junction capacitance, F"),
+    "VJ": (POSITIVE, "junction potential, V"),
+    "M": (Range(0.0, 1.0, closed_low=True), "grading coefficient"),
+    "FC": (Range(0.0, 1.0, closed_low=True), "forward-bias depletion capacitance coefficient"),
+    "TT": (NON_NEGATIVE, "transit time, s"),
+    "AIS": (NON_NEGATIVE, "mismatch coefficient of IS"),
+    "TNOM": (ABOVE_ZERO_KELVIN, "nominal temperature, degC"),
+}
 _REFERENCE_KELVIN = 300.15
 _GAP_AT_REFERENCE = 1.1150877  # eV: the silicon gap law below at 300.15 K, as SPICE writes it
 
@@ -222,18 +239,13 @@ def diode_capacitance(vd, t: DiodeAtTemperature):
 def _parameters(element, context) -> tuple[str, dict, object]:
     type_, params, tnom = context.model_parameters(element)
     merged = dict(DIODE_DEFAULTS)
-    ignored = []
+    named = {}
     for key, value in params.items():
         name = _ALIASES.get(key, key)
-        if name in DIODE_PARAMETERS:
-            merged[name] = value
-        elif not (name == "LEVEL" and np.all(np.asarray(value) == 1)):
-            ignored.append(key)
-    if ignored:
-        model = context.circuit.model_of(element)
-        where = f"{context.circuit.path or '<input>'}:{model.line or element.line}"
-        warnings.warn(ModelWarning(f"{where}: model {model.name}: {', '.join(sorted(ignored))} not modelled by the "
-                                   f"diode model (ignored; see docs/dc.md)"), stacklevel=4)
+        named[name if name in DIODE_PARAMETERS else key] = value
+    review_parameters(element, context, {**named, "TNOM": tnom}, model_name="diode model",
+                      ranges=DIODE_RANGES, modelled=(*DIODE_PARAMETERS, "TNOM"))
+    merged.update({k: v for k, v in named.items() if k in DIODE_PARAMETERS})
     return type_, merged, tnom
 
 

@@ -42,6 +42,7 @@ import numpy as np
 
 from ..errors import CircuitError
 from .dc_context import DcStamp, DeviceStamp
+from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation
 from .temperature import kelvin, thermal_voltage
 
@@ -75,6 +76,16 @@ VGS_STEP = 0.5
 BULK_FORWARD_LIMIT = 0.5
 #: Parameters the model reads (``AVT``, ``ABETA``: mismatch coefficients, see :func:`mos_mismatch`).
 MOS_PARAMETERS = ("VTO", "KP", "LAMBDA", "GAMMA", "PHI", "TCV", "BEX", "AVT", "ABETA")
+#: Valid range of each parameter and what it is (checked where a device is stamped).
+MOS_RANGES: dict[str, tuple[Range, str]] = {
+    "KP": (POSITIVE, "transconductance parameter mu Cox, A/V^2"),
+    "LAMBDA": (NON_NEGATIVE, "channel-length modulation, 1/V"),
+    "GAMMA": (NON_NEGATIVE, "body-effect coefficient, V^0.5"),
+    "PHI": (POSITIVE, "surface potential 2 phi_F, V"),
+    "AVT": (NON_NEGATIVE, "Pelgrom coefficient of the threshold, V m"),
+    "ABETA": (NON_NEGATIVE, "Pelgrom coefficient of beta, m"),
+    "TNOM": (ABOVE_ZERO_KELVIN, "nominal temperature, degC"),
+}
 
 
 @dataclass(frozen=True)
@@ -343,6 +354,8 @@ def mos_numbers(params: Mapping[str, object], celsius) -> MosAtTemperature:
 
 def _stamp(model: DeviceModel, element, context) -> DcStamp:
     type_, params, tnom = context.model_parameters(element)
+    review_parameters(element, context, {**params, "TNOM": tnom}, model_name="MOS model",
+                      ranges=MOS_RANGES, modelled=(*MOS_PARAMETERS, "TNOM"), essentials=("VTO", "KP"))
     merged = {**MOS_DEFAULTS, **params}
     numbers = {name: merged[name] for name in MOS_DEFAULTS}
     w, l = context.instance(element, "w", 1.0), context.instance(element, "l", 1.0)

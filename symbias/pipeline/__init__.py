@@ -11,13 +11,16 @@ Each step takes plain inputs and returns frozen result objects:
 * :mod:`~symbias.pipeline.derivation`: derive them with options, approximate,
   sensitivities, transfer error, values at the operating point ->
   :class:`Derivation`;
-* :mod:`~symbias.pipeline.bias`: operating points (one, or every DC state) and
-  the small-signal symbol values at the bias point;
+* :mod:`~symbias.pipeline.bias`: operating points (the conducting state with
+  the others beside it, or every DC state) and the small-signal symbol values
+  at the bias point;
 * :mod:`~symbias.pipeline.simulation` and :mod:`~symbias.pipeline.corners`:
   bias values from ngspice with the netlist's own model cards, process
   corners, and the model check (built-in models beside ngspice's);
 * :mod:`~symbias.pipeline.sweeps`: output, supply and temperature sweeps with
-  their metrics;
+  their metrics, on the conducting state;
+* :mod:`~symbias.pipeline.mirror_ratio`: the DC current ratio of a mirror at
+  its operating point and its error split by cause (:class:`MirrorRatio`);
 * :mod:`~symbias.pipeline.topologies`: library listings and topology records.
 
 Examples
@@ -33,8 +36,9 @@ from __future__ import annotations
 from .bias import BiasPoint, bias_point, operating_point_of, states_of
 from .corners import CornerPoints, corner_points, model_check
 from .derivation import Derivation, DeriveRequest, DerivedQuantity, derive
+from .mirror_ratio import MirrorRatio, RatioCause, mirror_ratio
 from .quantities import QUANTITY_KINDS, Quantity, default_quantities, parse_quantity
-from .sweeps import SweepRequest, SweepResult, default_output, run_sweep
+from .sweeps import BranchCheck, SweepRequest, SweepResult, default_output, run_sweep
 from .targets import MODEL_SOURCES, DesignInputs, Target, design_inputs, load_target, target_from_text
 
 __all__ = [
@@ -61,6 +65,10 @@ __all__ = [
     "model_check",
     "SweepRequest",
     "SweepResult",
+    "BranchCheck",
+    "MirrorRatio",
+    "RatioCause",
+    "mirror_ratio",
     "run_sweep",
     "default_output",
 ]

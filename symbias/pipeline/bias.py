@@ -61,7 +61,15 @@ class BiasPoint:
 
 
 def operating_point_of(target: Target, inputs: DesignInputs):
-    """The DC operating point of a target, from the source ``inputs.models`` names, at its corner.
+    """The DC operating point of a target: from the source ``inputs.models`` names, at its corner, on
+    its conducting state, with the other states attached.
+
+    The one place every command takes its operating point from: a
+    self-biased cell is reported on the state that carries current (not on
+    a zero-current state a plain solve may land on), and ``point.states``
+    (:class:`~symbias.dc.states.StateSurvey`) lists every state found and
+    whether a start-up circuit is needed.  A ``guess`` in the inputs picks
+    the state instead.
 
     Raises
     ------
@@ -69,15 +77,23 @@ def operating_point_of(target: Target, inputs: DesignInputs):
         From the DC solve.
     SimulatorError
         From ngspice, with ``models="ngspice"``.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target, design_inputs
+    >>> target = load_target("brokaw-bandgap")
+    >>> point = operating_point_of(target, design_inputs(target))
+    >>> round(point.voltage("vref"), 3), len(point.states.states), point.states.needs_startup
+    (1.183, 3, True)
     """
-    from ..dc.operating_point import operating_point
+    from ..dc.states import conducting_point
     from .simulation import corner_target, simulated_point
 
     if inputs.models == "ngspice":
         return simulated_point(target, inputs)
     target = corner_target(target, inputs)
-    return operating_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
-                           guess=dict(inputs.guess) or None)
+    return conducting_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
+                            guess=dict(inputs.guess) or None)
 
 
 def states_of(target: Target, inputs: DesignInputs):

@@ -59,7 +59,9 @@ class DeriveRequest:
     sensitivities : bool
         Add normalised sensitivities.
     transfer_error : bool
-        For current gains: the error 1 - gain/ideal split by cause.
+        For current gains: the small-signal error 1 - gain/ideal split by cause,
+        and with ``at_bias`` the DC current ratio at the operating point and
+        its error split by cause (:mod:`~symbias.pipeline.mirror_ratio`).
     at_bias : DesignInputs or None
         Solve the DC operating point with these inputs and evaluate there.
 
@@ -115,6 +117,9 @@ class DerivedQuantity:
         For a result that is infinite (an open port): why; ``formula`` is then None.
     approximation_error_at_bias : float or None
         Relative error of the approximation at the operating point (with ``at_bias``).
+    dc_ratio : MirrorRatio or None
+        For a current gain from a current source, with ``transfer_error`` and
+        ``at_bias``: the DC ratio ``Iout/Iin`` and its error by cause.
     """
 
     quantity: Quantity
@@ -127,6 +132,7 @@ class DerivedQuantity:
     missing: tuple[str, ...] = ()
     infinite: str | None = None
     approximation_error_at_bias: float | None = None
+    dc_ratio: Any = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -172,11 +178,12 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
         except InfiniteResultError as err:  # an open port: report it and go on with the other quantities
             results.append(DerivedQuantity(quantity, None, value=math.inf, infinite=err.reason))
             continue
-        results.append(_extras(quantity, formula, request, bias))
+        results.append(_extras(quantity, formula, request, bias, target))
     return Derivation(target, request, tuple(results), bias)
 
 
-def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint | None) -> DerivedQuantity:
+def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint | None,
+            target: Target) -> DerivedQuantity:
     options = dict(defaults=request.default_assumptions, tolerance=request.tolerance, samples=request.samples,
                    seed=request.seed)
     try:
@@ -196,9 +203,14 @@ def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint
     if approximation is not None and value is not None and value != 0:
         approximate_value, _ = value_at(approximation.formula, bias.values)
         at_bias = None if approximate_value is None else abs(approximate_value / value - 1.0)
+    ratio = None
+    if error is not None and bias is not None and target.circuit.element(quantity.arguments[1]).kind == "I":
+        from .mirror_ratio import mirror_ratio
+
+        ratio = mirror_ratio(target, request.at_bias, *quantity.arguments, point=bias.point)
     return DerivedQuantity(quantity, formula, approximation, rows,
                            MappingProxyType(dict(point)) if point is not None else None, error, value, missing,
-                           approximation_error_at_bias=at_bias)
+                           approximation_error_at_bias=at_bias, dc_ratio=ratio)
 
 
 def _approximation(formula, request: DeriveRequest, options: dict):

@@ -249,6 +249,7 @@ def _write_container(stream: TextIO, opening: str, closing: str, items, indent: 
 
 def _transfer_error_record(error) -> dict[str, Any]:
     return {
+        "kind": "small-signal: 1 - (d iout/d iin)/ideal",
         "ideal": str(error.ideal.expr),
         "exact": error.exact.exact_string(),
         "leading": error.leading.text,
@@ -274,8 +275,11 @@ def derivation_record(derivation, *, streamed: bool = False) -> dict[str, Any]:
                                 streamed=streamed)
         if result.transfer_error is not None:
             record["transfer_error"] = _transfer_error_record(result.transfer_error)
+        if result.dc_ratio is not None:
+            record["dc_ratio"] = result.dc_ratio.to_dict()
         if derivation.bias is not None:
             record["at_bias"] = result.value
+            record["at_bias_kind"] = "small-signal value at the operating point"
             if result.approximation_error_at_bias is not None:
                 record["approx_error_at_bias"] = result.approximation_error_at_bias
         records.append(record)
@@ -283,25 +287,74 @@ def derivation_record(derivation, *, streamed: bool = False) -> dict[str, Any]:
     if derivation.bias is not None:  # where the values at the operating point came from
         header["bias_models"] = derivation.bias.inputs.models
         header["bias_corner"] = derivation.bias.inputs.corners[0] if derivation.bias.inputs.corners else None
+    if derivation.bias is not None and derivation.bias.point.states is not None:
+        header["operating_point_states"] = derivation.bias.point.states.to_dict()
     if len(records) == 1:
         return {**header, **records[0]}
     return {**header, "results": records}
 
 
+def _units(op) -> dict[str, Any]:
+    """The unit and sign of every field of an operating point record."""
+    from ..conventions import SPICE_BRANCH
+    from ..symbols import unit_of
+
+    keys = sorted({k for dev in op.devices.values() for k in dev.small_signal})
+    shown = {key: unit for dev in op.devices.values() for _, section, key, unit in dev.fields
+             if section == "small_signal"}  # the units the tables show
+    return {
+        "temperature": "degC",
+        "node_voltages": "V",
+        "branch_currents": f"A, {SPICE_BRANCH}",
+        "element_currents": "A, from the element's first node to its second",
+        "output_currents": "A, positive in the direction the output transistor drives it (docs/conventions.md)",
+        "devices.currents": "A, into each terminal",
+        "devices.voltages": "V, between the element's own pins",
+        "devices.small_signal": {k: shown.get(k) or unit_of(f"{k}_X") or "" for k in keys},
+        "devices.limits": "V",
+    }
+
+
+def _output_currents(circuit, op) -> list[dict[str, Any]]:
+    from ..conventions import output_currents
+
+    return [{**current.to_dict(), "value": value} for current, value in output_currents(circuit, op.branch_currents)]
+
+
 def operating_point_record(target, op) -> dict[str, Any]:
-    """The JSON object of ``symbias bias``: the circuit and the operating point's fields."""
-    return {"circuit": target.title, "source": target.circuit.path, **op.to_dict()}
+    """The JSON object of ``symbias bias``: the circuit, the operating point's fields, output currents, units.
+
+    ``states`` (when a search was made) says which DC states exist, which is
+    reported and whether a start-up circuit is needed.
+    """
+    return {"circuit": target.title, "source": target.circuit.path, **op.to_dict(),
+            "output_currents": _output_currents(target.circuit, op), "units": _units(op)}
 
 
 def states_record(target, found) -> dict[str, Any]:
     """The JSON object of ``symbias bias --all``: every DC state and whether start-up is needed."""
-    return {"circuit": target.title, "source": target.circuit.path, **found.to_dict()}
+    record = {"circuit": target.title, "source": target.circuit.path, **found.to_dict()}
+    for state, point_record in zip(found.states, record["states"]):
+        point_record["output_currents"] = _output_currents(target.circuit, state.point)
+    if found.states:
+        record["units"] = _units(found.states[0].point)
+    return record
 
 
 def sweep_record(target, result) -> dict[str, Any]:
-    """The JSON object of ``symbias sweep``: output, kind, metrics and the swept data."""
+    """The JSON object of ``symbias sweep``: output, kind, metrics with their units, branch, the swept data.
+
+    ``output_meaning`` says which way the output counts; ``metric_units`` gives
+    each metric's unit; ``branch`` the DC states at the nominal point and the
+    swept ranges off the conducting state (``lost``).
+    """
+    from ..conventions import SPICE_BRANCH
+
     return {"circuit": target.title, "source": target.circuit.path, "output": result.output, "kind": result.kind,
-            "metrics": result.metrics.to_dict(), **result.sweep.to_dict((result.output,))}
+            "output_unit": result.output_unit, "output_meaning": result.output_meaning,
+            "swept_unit": result.swept_unit, "metrics": result.metrics.to_dict(), "metric_units": result.units(),
+            "branch": result.branch.to_dict(), "branch_currents_sign": SPICE_BRANCH,
+            **result.sweep.to_dict((result.output,))}
 
 
 def listing_record(row) -> dict[str, Any]:

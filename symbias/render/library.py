@@ -57,7 +57,8 @@ def topology_renderables(description) -> list[Any]:
         for column in ("name", "default", "unit", "sizing rule"):
             variables.add_column(column, overflow="fold")
         for v in topology.variables:
-            variables.add_row(v.name, v.default, v.unit, v.rule + (f"  [{v.expr}]" if v.expr else ""))
+            rule = v.rule + (f"  [{v.expr}]" if v.expr else "")
+            variables.add_row(v.name, v.default, v.unit, Text(rule.replace("**", "^")))  # one power syntax
         out.append(variables)
     if description.derivation is not None:
         for result, leading in zip(description.derivation.results, description.leading):

@@ -35,8 +35,10 @@ def sweep_plot(result, path: str | Path, kind: str | None = None) -> None:
     sweep, metrics = result.sweep, result.metrics
     fig, ax = plt.subplots(figsize=(6.4, 4.0))
     ax.plot(sweep.values, result.values, lw=1.5)
-    ax.set_xlabel("temperature (degC)" if result.kind == "temperature" else sweep.variable)
-    ax.set_ylabel(result.output)
+    ax.set_xlabel("temperature [degC]" if result.kind == "temperature" else f"{sweep.variable} [{result.swept_unit}]")
+    ax.set_ylabel(f"{result.output} [{result.output_unit}]")
+    for first, last in result.branch.lost:
+        ax.axvspan(first, last, color="tab:red", alpha=0.12, label="off the conducting state")
     ax.grid(True, alpha=0.3)
     if result.kind == "compliance":
         for edge in (metrics.by_current_low, metrics.by_current_high):

@@ -27,6 +27,8 @@ __all__ = [
     "derivation_renderables",
     "polynomial_texts",
     "value_text",
+    "value_label",
+    "ratio_rows",
     "DISPLAY_TERMS",
     "render_to_string",
     "terminal_console",
@@ -135,6 +137,23 @@ def sensitivity_table(rows: Any, title: str = "normalised sensitivities S = (x/F
     return table
 
 
+def value_label(result) -> str:
+    """What the value at the operating point is: for a transfer, the small-signal slope.
+
+    Examples
+    --------
+    >>> from symbias.pipeline import load_target, derive, DeriveRequest
+    >>> value_label(derive(load_target("examples/simple_mirror.cir")).results[1])
+    'small-signal gain d iout/d iin at the operating point'
+    """
+    quantity = result.quantity.kind
+    if quantity == "current_gain":
+        return "small-signal gain d iout/d iin at the operating point"
+    if quantity == "output_resistance":
+        return "small-signal value at the operating point"
+    return f"small-signal {quantity.replace('_', ' ')} at the operating point"
+
+
 def value_text(result, temperature: float) -> str:
     """The value of a derived quantity at the operating point, with its unit and temperature."""
     if result.missing:
@@ -151,9 +170,38 @@ def value_text(result, temperature: float) -> str:
 def _error_rows(error) -> list[tuple[str, str]]:
     from ..readable import readable_text
 
-    rows = [("error 1 - gain/ideal", f"~ {readable_text(error.leading.expr)}  (worst error "
-                                     f"{100 * error.leading.error:.3g} %; ideal {readable_text(error.ideal.expr)})")]
+    rows = [("small-signal error 1 - gain/ideal", f"~ {readable_text(error.leading.expr)}  (worst error "
+                                                  f"{100 * error.leading.error:.3g} %; ideal "
+                                                  f"{readable_text(error.ideal.expr)})")]
     rows += [(f"  from {cause.name}", f"~ {readable_text(cause.leading.expr)}") for cause in error.causes]
+    return rows
+
+
+def _percent(value: float | None) -> str:
+    return "-" if value is None else f"{100 * value:+.4g} %"
+
+
+def ratio_rows(ratio) -> list[tuple[str, str]]:
+    """Rows for :func:`formula_panel`: the DC current ratio at the operating point and its error by cause.
+
+    Examples
+    --------
+    >>> from symbias.pipeline import load_target, design_inputs
+    >>> from symbias.pipeline.mirror_ratio import mirror_ratio
+    >>> target = load_target("examples/simple_mirror.cir")
+    >>> rows = ratio_rows(mirror_ratio(target, design_inputs(target), "Vout", "Iref"))
+    >>> rows[0]
+    ('DC current ratio Iout/Iin', '1.01356 = 20.27uA / 20uA at 27 degC (ideal 1)')
+    """
+    rows = [("DC current ratio Iout/Iin", f"{ratio_text(ratio.ratio)} = {engineering(ratio.output_current, 'A')} / "
+                                          f"{engineering(ratio.input_current, 'A')} at {ratio.temperature:g} degC "
+                                          f"(ideal {ratio_text(ratio.ideal)})"),
+            ("DC ratio error 1 - ratio/ideal", f"{_percent(ratio.error)}  (Iout: {ratio.meaning})")]
+    for cause in ratio.causes:
+        lead = "" if cause.formula is None else f";  leading order {cause.formula} = {_percent(cause.leading)}"
+        rows.append((f"  from {cause.name}", f"{_percent(cause.exact)} exact{lead}  ({cause.parameter})"))
+    if ratio.causes:
+        rows.append(("  interaction of the causes", _percent(ratio.interaction)))
     return rows
 
 
@@ -171,6 +219,10 @@ def derivation_renderables(derivation) -> list[Any]:
     """Header, one panel per quantity (with its approximation, value and error rows), sensitivity tables."""
     out: list[Any] = [f"[bold]{derivation.target.title}[/bold]  ({derivation.target.where})"]
     bias = derivation.bias
+    if bias is not None and bias.point.states is not None and bias.point.states.several:
+        from .dc import state_lines
+
+        out.extend(state_lines(bias.point.states))
     for result in derivation.results:
         if result.formula is None:
             out.append(_infinite_panel(result))
@@ -178,11 +230,15 @@ def derivation_renderables(derivation) -> list[Any]:
         rows = approximation_rows(result.approximation) if result.approximation is not None else []
         if bias is not None:
             source = " (ngspice)" if bias.inputs.models == "ngspice" else ""
-            rows.insert(0, (f"at the operating point{source}", value_text(result, bias.temperature)))
+            rows.insert(0, (value_label(result) + source, value_text(result, bias.temperature)))
         if result.approximation_error_at_bias is not None:
             rows.append(("error at the operating point", f"{100 * result.approximation_error_at_bias:.3g} %"))
+        if result.dc_ratio is not None:
+            rows += ratio_rows(result.dc_ratio)
         if result.transfer_error is not None:
             rows += _error_rows(result.transfer_error)
+            if bias is None:
+                rows.append(("DC current ratio", "add --at-bias for Iout/Iin at the operating point and its causes"))
         out.append(formula_panel(result.formula, rows))
         if result.sensitivities:
             point = ", ".join(f"{k}={v:.3g}" for k, v in (result.sensitivity_point or {}).items())
