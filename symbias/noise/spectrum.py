@@ -144,7 +144,7 @@ class NoiseSpectrum:
         flicker = (self.gains * self.flicker[:, None]).sum(axis=0) / self.frequencies
         white = (self.gains * self.white[:, None]).sum(axis=0)
         if not np.any(flicker > 0):
-            return None, "no flicker noise"
+            return None, "no flicker noise at the output"
         with np.errstate(divide="ignore"):
             ratio = np.log(flicker / white)
         above = ratio > 0
