@@ -27,6 +27,8 @@ __all__ = ["frequency_renderables", "frequency_record", "frequency_markdown", "f
            "render_to_string"]
 
 _UNIT_TEXT = {"ohm": "\u03a9"}
+#: Kept terms up to which the approximate form is printed in the table (longer ones: --json).
+_SHOWN_TERMS = 24
 
 
 def _value_text(value: complex | float, unit: str) -> str:
@@ -112,7 +114,7 @@ def _approximation_table(result) -> Any:
     table = Table(title="coefficients of s cut to their dominant terms", title_justify="left", show_header=False)
     table.add_column("item")
     table.add_column("value")
-    table.add_row("approx", readable_text(a.expr) if sum(a.kept[0]) + sum(a.kept[1]) < 400 else
+    table.add_row("approx", readable_text(a.expr) if kn + kd <= _SHOWN_TERMS else
                   f"{kn} + {kd} terms (see --json)")
     table.add_row("kept terms", f"{kn} of {an} / {kd} of {ad}")
     table.add_row("worst error", f"{100 * a.error:.3g} % (tolerance {100 * a.tolerance:.3g} %) at {a.where()}")
