@@ -42,7 +42,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, fields
-from functools import cached_property
+from functools import cached_property, lru_cache
 from types import MappingProxyType
 from typing import Any, Iterable, Mapping
 
@@ -63,7 +63,7 @@ __all__ = ["FrequencyApproximation", "approximate_frequency", "DEFAULT_BAND", "P
 #: Frequency band (Hz) over which the error is measured when none is stated.
 DEFAULT_BAND = (1.0, 1e9)
 #: Largest number of (point, term) values evaluated; fewer random points for a long result.
-POINT_TERMS = 1_000_000
+POINT_TERMS = 300_000
 _MIN_POINTS = 24
 _MAX_CORNERS = 16
 _ROUNDS = 12
@@ -251,16 +251,17 @@ def approximate_frequency(formula: Formula, assumptions: Iterable[Assumption | s
     names = [s.name for s in formula.symbols if s.name != LAPLACE]
     model = magnitude_model(names, assumptions, defaults=defaults, meanings=formula.meanings)
     unit, corners, drawn = _points(model, sum(formula.nterms), samples, seed)
-    glog, gsign = generator_logs(formula, model.names, model.logs(unit))
-    sides = [_Side(formula.term_columns[side], terms.powers[side], glog, gsign) for side in (0, 1)]
     omega = 2 * np.pi * log_frequencies(band[0], band[1], _PER_DECADE)
-    choice, error, worst = _search(sides, omega, tolerance)
-    pole_rows, pole_error = _dominant(sides[1], choice[1])
-    zero_rows, zero_error = _dominant(sides[0], choice[0])
+    with np.errstate(all="ignore"):  # zero, infinite and underflowing terms are handled where they are read
+        glog, gsign = generator_logs(formula, model.names, model.logs(unit))
+        sides = [_Side(formula.term_columns[side], terms.powers[side], glog, gsign) for side in (0, 1)]
+        choice, error, worst = _search(sides, omega, tolerance)
+        pole_rows, pole_error = _dominant(sides[1], choice[1])
+        zero_rows, zero_error = _dominant(sides[0], choice[0])
     point = {n: float(v[worst[0]]) for n, v in model.values(unit).items()}
     rows = tuple(s.rows(c) for s, c in zip(sides, choice))
     kept = tuple((len(r), s.size) for r, s in zip(rows, sides))
-    listing = tuple((side, power, len(choice[side][power]), len(sides[side].groups[power]))
+    listing = tuple((side, power, choice[side][power], sides[side].all_terms()[power])
                     for side in (0, 1) for power in sorted(sides[side].groups))
     return FrequencyApproximation(formula, rows, float(error), point, float(omega[worst[1]] / (2 * np.pi)),
                                   (float(band[0]), float(band[1])), model.assumptions, float(tolerance), corners,
@@ -298,96 +299,106 @@ def _points(model: MagnitudeModel, size: int, samples: int, seed: int) -> tuple[
 
 
 class _Side:
-    """One side's terms at the points, grouped by power of s; a helper local to one call."""
+    """One side's terms at the points, grouped by power of s and ordered by importance within each group.
+
+    A helper local to one call.  Importance is a term's largest share of its
+    coefficient over the points.  For each coefficient the worst relative error
+    over the points of its first 1-8 terms, then of geometrically growing
+    prefixes, is computed once; :meth:`choose` bisects between the two
+    candidates around a tolerance (the error falls nearly monotonically with
+    the prefix).
+    """
 
     def __init__(self, columns: TermColumns, powers: np.ndarray, glog: np.ndarray, gsign: np.ndarray):
-        exponents_t = np.ascontiguousarray(columns.exponents.T.astype(float))
-        coefficient = columns.numerators.astype(float) / columns.denominators.astype(float)
+        grouped = np.argsort(powers, kind="stable")
+        sorted_powers = powers[grouped]
+        starts = np.flatnonzero(np.r_[True, sorted_powers[1:] != sorted_powers[:-1]])
+        exponents_t = np.ascontiguousarray(columns.exponents[grouped].T.astype(float))
+        coefficient = columns.numerators[grouped].astype(float) / columns.denominators[grouped].astype(float)
         self.size = len(coefficient)
-        term_logs = dot(glog, exponents_t) + np.log(np.abs(coefficient))
+        self.degree = int(powers.max(initial=0))
+        logs = dot(glog, exponents_t) + np.log(np.abs(coefficient))
         signs = np.sign(coefficient)
         if np.any(gsign < 0):  # a negative sub-expression generator flips the terms with an odd power of it
             signs = signs * np.where(dot((gsign < 0).astype(float), exponents_t) % 2 > 0.5, -1.0, 1.0)
-        else:
-            signs = np.broadcast_to(signs, term_logs.shape)
-        self.groups = {int(k): np.flatnonzero(powers == k) for k in np.unique(powers)}
-        self.degree = int(powers.max(initial=0))
-        self.fits = {k: _CoefficientFit(term_logs[:, idx], signs[:, idx]) for k, idx in self.groups.items()}
+        sizes = np.diff(np.r_[starts, self.size])
+        group_of = np.repeat(np.arange(len(starts)), sizes)
+        top = np.maximum.reduceat(logs, starts, axis=1)
+        top = np.where(np.isfinite(top), top, 0.0)
+        values = np.subtract(logs, top[:, group_of], out=logs)  # in place: these arrays are points x terms
+        np.exp(values, out=values)
+        values *= signs
+        total = np.add.reduceat(values, starts, axis=1)
+        scale = np.abs(total)
+        share = np.abs(values)
+        share *= (1.0 / scale)[:, group_of]
+        share = np.nan_to_num(share.max(axis=0), nan=np.inf)
+        within = np.lexsort((-share, group_of))  # groups kept together, most important first
+        self.rows_by_rank = grouped[within]  # original term index of each ranked position
+        ranked = values[:, within]
+        self.groups: dict[int, slice] = {}
+        self.top, self.total, self.cumulative, self.candidates, self.worst, self.scale = {}, {}, {}, {}, {}, {}
+        for g, first in enumerate(starts):
+            k, span = int(sorted_powers[first]), slice(int(first), int(first + sizes[g]))
+            self.groups[k] = span
+            self.top[k], self.total[k], self.scale[k] = top[:, g], total[:, g], scale[:, g]
+            self.cumulative[k] = np.cumsum(ranked[:, span], axis=1)
+            self.candidates[k] = _candidates(int(sizes[g]))
+            self.worst[k] = self._errors(k, self.candidates[k])
 
-    def all_terms(self) -> dict[int, np.ndarray]:
-        return {k: np.arange(len(idx)) for k, idx in self.groups.items()}
+    def _errors(self, k: int, counts: np.ndarray) -> np.ndarray:
+        """Worst relative error over the points of the first ``counts`` terms of coefficient ``k``."""
+        partial = self.cumulative[k][:, counts - 1]
+        errors = np.abs(partial - self.total[k][:, None]) / self.scale[k][:, None]
+        errors = np.where(np.isfinite(errors), errors, np.where(partial == self.total[k][:, None], 0.0, np.inf))
+        return errors.max(axis=0) if len(errors) else np.zeros(len(counts))
 
-    def choose(self, tolerance: float) -> dict[int, np.ndarray]:
-        """Per power, positions (within its group, by importance) of the kept terms."""
-        return {k: fit.prefix(tolerance) for k, fit in self.fits.items()}
+    def all_terms(self) -> dict[int, int]:
+        return {k: span.stop - span.start for k, span in self.groups.items()}
 
-    def matrix(self, choice: dict[int, np.ndarray] | None) -> tuple[np.ndarray, np.ndarray]:
+    def choose(self, tolerance: float) -> dict[int, int]:
+        """Per power, how many of its terms (in importance order) are kept."""
+        out = {}
+        for k, span in self.groups.items():
+            good = np.flatnonzero(self.worst[k] <= tolerance)
+            if not len(good):
+                out[k] = span.stop - span.start
+                continue
+            high = int(self.candidates[k][good[0]])
+            low = int(self.candidates[k][good[0] - 1]) if good[0] > 0 else 0
+            while high - low > 1:
+                middle = (low + high) // 2
+                if self._errors(k, np.array([middle]))[0] <= tolerance:
+                    high = middle
+                else:
+                    low = middle
+            out[k] = high
+        return out
+
+    def matrix(self, choice: dict[int, int] | None) -> tuple[np.ndarray, np.ndarray]:
         """(mantissa, log scale) of every coefficient at every point: exact (None) or of the kept terms."""
-        points = len(next(iter(self.fits.values())).top)
+        points = len(next(iter(self.top.values())))
         mantissa = np.zeros((points, self.degree + 1))
         top = np.zeros((points, self.degree + 1))
-        for k, fit in self.fits.items():
-            top[:, k] = fit.top
-            mantissa[:, k] = fit.total if choice is None else fit.partial(len(choice[k]))
+        for k in self.groups:
+            top[:, k] = self.top[k]
+            mantissa[:, k] = self.total[k] if choice is None else self.cumulative[k][:, choice[k] - 1]
         return mantissa, top
 
     def rows(self, choice, powers: Iterable[int] | None = None) -> np.ndarray:
         """Indices (into the side's terms) of the kept terms of some powers (all by default)."""
-        parts = [self.groups[k][self.fits[k].order[choice[k]]] for k in (self.groups if powers is None else powers)]
+        parts = [self.rows_by_rank[self.groups[k].start:self.groups[k].start + choice[k]]
+                 for k in (self.groups if powers is None else powers)]
         return np.sort(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.intp)
 
 
-class _CoefficientFit:
-    """The terms of one coefficient at the points, ordered by importance, with the error of their prefixes.
-
-    Importance is a term's largest share of the coefficient over the points.
-    The worst error over the points is computed for prefixes of 1-8 terms and
-    then of geometrically growing length; :meth:`prefix` bisects between the
-    two candidates around the tolerance.
-    """
-
-    def __init__(self, logs: np.ndarray, signs: np.ndarray):
-        top = np.max(logs, axis=1, initial=-np.inf)
-        self.top = np.where(np.isfinite(top), top, 0.0)
-        with np.errstate(invalid="ignore", under="ignore"):
-            values = signs * np.exp(logs - self.top[:, None])
-        self.total = values.sum(axis=1)
-        scale = np.abs(self.total)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            share = np.max(np.abs(values) / scale[:, None], axis=0)
-        self.order = np.argsort(-np.nan_to_num(share, nan=np.inf), kind="stable")
-        self.cumulative = np.cumsum(values[:, self.order], axis=1)
-        self._scale = scale
-        size = len(self.order)
-        candidates = sorted({*range(1, min(size, 8) + 1), *np.unique(np.geomspace(8, size, 24).astype(int)), size})
-        self.candidates = np.array([c for c in candidates if 1 <= c <= size])
-        self.worst = np.array([self.error(c) for c in self.candidates])
-
-    def error(self, count: int) -> float:
-        """Worst relative error over the points of the first ``count`` terms."""
-        with np.errstate(divide="ignore", invalid="ignore"):
-            errors = np.abs(self.cumulative[:, count - 1] - self.total) / self._scale
-        errors = np.where(np.isfinite(errors), errors, np.where(self.cumulative[:, count - 1] == self.total, 0.0,
-                                                                 np.inf))
-        return float(errors.max()) if len(errors) else 0.0
-
-    def prefix(self, tolerance: float) -> np.ndarray:
-        """Positions (in importance order) of the shortest prefix found within ``tolerance``."""
-        good = np.flatnonzero(self.worst <= tolerance)
-        if not len(good):
-            return np.arange(len(self.order))
-        high = int(self.candidates[good[0]])
-        low = int(self.candidates[good[0] - 1]) if good[0] > 0 else 0
-        while high - low > 1:  # the error falls (nearly) monotonically with the prefix: bisect
-            middle = (low + high) // 2
-            if self.error(middle) <= tolerance:
-                high = middle
-            else:
-                low = middle
-        return np.arange(high)
-
-    def partial(self, count: int) -> np.ndarray:
-        return self.cumulative[:, count - 1]
+@lru_cache(maxsize=1024)
+def _candidates(count: int) -> np.ndarray:
+    """Prefix lengths whose error is computed up front: 1 to 8, then about 24 geometric steps to ``count``."""
+    steps = np.unique(np.r_[np.arange(1, min(count, 8) + 1), np.geomspace(8, max(count, 8), 24).astype(int), count])
+    steps = steps[(steps >= 1) & (steps <= count)]
+    steps.setflags(write=False)
+    return steps
 
 
 def _frequency_scale(mantissa: np.ndarray, top: np.ndarray) -> np.ndarray:

@@ -403,8 +403,14 @@ def _independent(rows: list[np.ndarray], row: np.ndarray) -> bool:
         return False
     if not rows:
         return True
-    return np.linalg.matrix_rank(np.vstack(rows + [row])) > len(rows)
+    # the rank test of numpy's matrix_rank (same tolerance), without its wrapper: this runs for every statement
+    matrix = np.vstack(rows + [row])
+    singular = np.linalg.svd(matrix, compute_uv=False)
+    return int(np.sum(singular > singular[0] * max(matrix.shape) * np.finfo(float).eps)) > len(rows)
 
 
 def _parallel(a: np.ndarray, b: np.ndarray) -> bool:
-    return bool(np.any(a)) and bool(np.any(b)) and np.linalg.matrix_rank(np.vstack([a, b])) == 1
+    if not (np.any(a) and np.any(b)):
+        return False
+    # two non-zero rows are parallel when |a.b| = |a||b| (to rounding)
+    return bool(abs(float(a @ b)) >= (1 - 1e-12) * float(np.linalg.norm(a) * np.linalg.norm(b)))

@@ -23,8 +23,8 @@ Examples
 >>> from symbias.pipeline.targets import load_target, design_inputs
 >>> target = load_target("examples/mos_cascode.cir")
 >>> result = frequency_analysis(target, design_inputs(target), FrequencyRequest())
->>> result.formula.label, result.response.corner is None
-('Rout at Vout', True)
+>>> result.formula.label, round(result.response.corner / 1e3)  # kHz where Rout has fallen 3 dB
+('Rout at Vout', 213)
 """
 
 from __future__ import annotations
