@@ -119,11 +119,7 @@ Vout out 0 2.5
     for device in ("Q1", "Q2", "Q3"):  # the flicker coefficient of each device, KF*IB^AF
         values[f"Kf_{device}"] = 2e-15 * abs(result.bias.point.device(device).currents["b"])
     values["f"] = 1.0
-    import sympy
-
-    total = result.formula.white_expr() + result.formula.flicker_expr()
-    symbols = {s.name: s for s in total.free_symbols}
-    closed = float(total.subs({symbols[n]: v for n, v in values.items() if n in symbols}))
+    closed = result.formula.white_value(values) + result.formula.flicker_value(values)
     # the closed forms write shot noise as 2kT gm and 2kT/rpi (= 2qIC, 2qIB when gm = IC/VT, beta = IC/IB)
     assert closed == pytest.approx(result.spectrum.total[0], rel=2e-3)
     assert len(result.formula.terms) == len(result.spectrum.sources) == 3 * 3 + 3

@@ -31,7 +31,7 @@ Examples
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import Any, Sequence
+from typing import Any, Mapping, Sequence
 
 from ..circuit import Circuit
 from ..devices.options import SmallSignalOptions
@@ -45,6 +45,9 @@ from .output import NoiseOutput, drive, noise_output
 from .sources import NoiseSource, noise_sources
 
 __all__ = ["NoiseTerm", "OutputNoiseFormula", "output_noise_formula", "source_transfers"]
+
+#: Low-frequency transfer terms up to which the exact closed-form total is factored for display.
+_FACTOR_TERMS = 120
 
 
 @dataclass(frozen=True, eq=False)
@@ -84,8 +87,29 @@ class OutputNoiseFormula:
     def _sum(self, kinds: Sequence[str], leading: bool):
         import sympy
 
-        parts = [t.contribution_expr(leading) for t in self.terms if t.source.kind in kinds]
-        return sympy.factor(sympy.Add(*parts)) if parts else sympy.Integer(0)
+        chosen = [t for t in self.terms if t.source.kind in kinds]
+        if not chosen:
+            return sympy.Integer(0)
+        total = sympy.Add(*(t.contribution_expr(leading) for t in chosen))
+        size = sum(sum(t.low_frequency.nterms) for t in chosen)
+        # factoring reads well and is quick for short results; it takes seconds beyond a hundred terms
+        return sympy.factor(total) if leading or size <= _FACTOR_TERMS else total
+
+    def white_value(self, values: Mapping[str, Any]) -> float:
+        """The white output noise at low frequency, ``sum H_i(0)^2 S_i``, at numeric values (no sympy)."""
+        return self._value(("thermal", "shot"), values)
+
+    def flicker_value(self, values: Mapping[str, Any]) -> float:
+        """The 1/f output noise at low frequency at numeric values (``f`` among them)."""
+        return self._value(("flicker",), values)
+
+    def _value(self, kinds: Sequence[str], values: Mapping[str, Any]) -> float:
+        total = 0.0
+        for term in self.terms:
+            if term.source.kind in kinds:
+                gain = complex(term.low_frequency.evaluate(values))
+                total += abs(gain) ** 2 * float(term.source.density.evaluate(values))
+        return total
 
     def white_expr(self, leading: bool = False):
         """The white (thermal and shot) output noise at low frequency, factored (sympy)."""
