@@ -200,15 +200,15 @@ def noise_analysis(target: Target, inputs: DesignInputs, request: NoiseRequest |
     densities = source_densities(sources, target.circuit, bias.point, cards, inputs.temperature, bias.values)
     spectrum = noise_spectrum(network, sources, densities, where, bias.values, frequencies)
     corner, corner_note = spectrum.flicker_corner()
-    formula = _closed_form(target, output, request, flicker, notes) if request.closed_form else None
+    # the closed forms keep the requested matching but only the parasitic resistances the numbers have
+    symbolic = replace(request.options, parasitics=options.parasitics)
+    formula = _closed_form(target, output, request, symbolic, flicker) if request.closed_form else None
     return NoiseResult(target, request, bias, spectrum, formula, corner, corner_note, notes)
 
 
-def _closed_form(target: Target, output: str, request: NoiseRequest, flicker, notes):
+def _closed_form(target: Target, output: str, request: NoiseRequest, symbolic: SmallSignalOptions, flicker):
     from ..noise import output_noise_formula
 
-    symbolic = replace(request.options, parasitics=tuple(p for p in request.options.parasitics
-                                                         if not any(n.startswith(p + " ") for n in notes)))
     formula = output_noise_formula(target.circuit, output, symbolic, flicker, request.backend)
     if not request.approximate:
         return formula
