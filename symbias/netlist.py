@@ -34,6 +34,7 @@ from .circuit import GROUND, Circuit, Element, Model, validate
 from .elements import KINDS
 from .errors import CircuitError, NetlistError, SymbiasError
 from .expressions import ZERO, Expr, Number, Symbol, parse_value, try_parse_number
+from .limits import temperature_problem
 
 __all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
 
@@ -266,6 +267,9 @@ def _add_model(line: Line, models: dict[str, Model]) -> None:
     if positional:
         raise NetlistError(f".model {name}: expected NAME=value parameters, got {positional[0]!r}", line=line.number)
     values = {key.upper(): _value(text, {}, line.number) for key, text in named.items()}
+    tnom = values.get("TNOM")
+    if tnom is not None and tnom.is_number and temperature_problem(float(tnom)) is not None:
+        raise NetlistError(f".model {name}: TNOM: {temperature_problem(float(tnom))}", line=line.number)
     if name.lower() in models:
         raise NetlistError(f"model {name!r} is defined twice (first on line {models[name.lower()].line})", line=line.number)
     models[name.lower()] = Model(name=name, type=mtype, params=values, line=line.number)

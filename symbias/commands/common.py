@@ -18,7 +18,7 @@ from typing import Any, Iterable
 
 from ..errors import UsageError
 
-__all__ = ["add_target_argument", "add_design_arguments", "add_dc_arguments", "parse_assignments", "target_of",
+__all__ = ["add_target_argument", "add_design_arguments", "temperature", "add_dc_arguments", "parse_assignments", "target_of",
            "inputs_of", "print_renderables", "print_json"]
 
 
@@ -31,7 +31,8 @@ def add_target_argument(parser: argparse.ArgumentParser) -> None:
 def add_design_arguments(group) -> None:
     """Add --process, --temp and --set: what a circuit needs to become numbers."""
     group.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
-    group.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
+    group.add_argument("--temp", type=temperature, default=27.0, metavar="DEGC",
+                       help="temperature in degC (default 27; above -273.15, at most 1000)")
     group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
                        help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
 
@@ -43,6 +44,26 @@ def add_dc_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--guess", action="append", default=[], metavar="NODE=VOLTS",
                         help="starting voltage of a node, to pick one of several solutions (repeatable)")
     parser.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def temperature(text: str) -> float:
+    """An argparse type: a temperature in degC within the models' range (:mod:`symbias.limits`).
+
+    Examples
+    --------
+    >>> temperature("85")
+    85.0
+    """
+    from ..limits import temperature_problem
+
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expects a temperature in degC, got {text!r}") from None
+    problem = temperature_problem(value)
+    if problem is not None:
+        raise argparse.ArgumentTypeError(problem)
+    return value
 
 
 def parse_assignments(items: Iterable[str], flag: str) -> dict[str, float]:

@@ -30,7 +30,10 @@ def run_cli(folder: Path, monkeypatch, capsys, argv: list[str], files: dict[str,
         (folder / name).write_text(text)
     monkeypatch.chdir(folder)
     before = snapshot(folder)
-    status = main(argv)
+    try:
+        status = main(argv)
+    except SystemExit as stop:  # argparse refuses an option value
+        status = stop.code
     out, err = capsys.readouterr()
     return status, out, err, snapshot(folder) != before
 
