@@ -4,6 +4,14 @@ The generated source imports numpy only and defines one function per form
 (exact and, when given, approximate).  Each docstring names every argument
 with its meaning and unit.
 
+Generated code holds only identifiers this module makes itself: function
+names from the quantity, argument names from symbol names that pass
+:func:`argument_names` (others become ``x1``, ``x2``...), ``numpy`` and
+``float``.  Text that comes from the netlist or the command line (element
+names, labels, meanings, assumptions) appears only inside docstrings, with
+every quote, backslash and control character escaped (:func:`docstring`), so
+it can never end the string and run as code.
+
 Examples
 --------
 >>> from symbias.netlist import parse_netlist
@@ -19,13 +27,43 @@ from __future__ import annotations
 
 import keyword
 import re
-from typing import Any
+from typing import Any, Iterable
 
 import sympy
 
 from ..formula import Formula
 
-__all__ = ["python_source", "function_name", "derivation_python"]
+__all__ = ["python_source", "function_name", "derivation_python", "docstring", "argument_names"]
+
+_PLAIN = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}", re.ASCII)
+_TAKEN = frozenset({"numpy", "float"})
+
+
+def docstring(text: str, indent: str = "") -> str:
+    r'''A triple-quoted string literal holding ``text``, whatever characters it has.
+
+    Backslashes and double quotes are escaped, and so is every character
+    that is not printable (except the line breaks of ``text``), so the
+    literal ends only where it is meant to.
+
+    Examples
+    --------
+    >>> print(docstring('Rout at Vo"""+[]+"""'))
+    """Rout at Vo\"\"\"+[]+\"\"\""""
+    >>> text = 'a "quote", a \\ and a ' + chr(0)
+    >>> import ast; ast.literal_eval(docstring(text)) == text
+    True
+    '''
+    def escape(character: str) -> str:
+        if character in '\\"':
+            return "\\" + character
+        if character == "\n" or character.isprintable():
+            return character
+        code = ord(character)
+        return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}" if code < 0x10000 else f"\\U{code:08x}"
+
+    body = "".join(escape(c) for c in text).replace("\n", "\n" + indent)
+    return f'\"\"\"{body}\"\"\"'
 
 
 def function_name(formula: Formula) -> str:
@@ -38,29 +76,58 @@ def function_name(formula: Formula) -> str:
     >>> function_name(output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\nR2 a 0 RB\\n"), "R1"))
     'rout_at_r1'
     """
-    name = re.sub(r"[^0-9a-zA-Z]+", "_", formula.label).strip("_").lower() or formula.quantity
-    return f"f_{name}" if name[0].isdigit() or keyword.iskeyword(name) else name
+    name = re.sub(r"[^0-9a-zA-Z]+", "_", formula.label, flags=re.ASCII).strip("_").lower()[:60] or formula.quantity
+    name = re.sub(r"[^0-9a-z_]+", "_", name, flags=re.ASCII)
+    return f"f_{name}" if name[0].isdigit() or keyword.iskeyword(name) or name in _TAKEN else name
 
 
-def _argument(name: str) -> str:
-    return f"{name}_" if keyword.iskeyword(name) else name
+def argument_names(symbols: Iterable[str]) -> dict[str, str]:
+    """Symbol name -> argument name: the symbol itself when it is a plain identifier, else ``x1``, ``x2``...
+
+    A plain identifier is ASCII, starts with a letter, is no Python keyword and
+    does not hide ``numpy`` or ``float``.
+
+    Examples
+    --------
+    >>> argument_names(["gm_Q1", "lambda", "numpy", "x1"])
+    {'gm_Q1': 'gm_Q1', 'lambda': 'x2', 'numpy': 'x3', 'x1': 'x1'}
+    """
+    symbols = list(symbols)
+    out: dict[str, str] = {}
+    used = {s for s in symbols if _plain(s)}
+    counter = 0
+    for symbol in symbols:
+        if _plain(symbol):
+            out[symbol] = symbol
+            continue
+        counter += 1
+        while f"x{counter}" in used:
+            counter += 1
+        out[symbol] = f"x{counter}"
+        used.add(out[symbol])
+    return out
 
 
-def _function(name: str, expr: sympy.Expr, symbols: list[str], meanings: dict[str, str], summary: str,
+def _plain(name: str) -> bool:
+    return bool(_PLAIN.fullmatch(name)) and not keyword.iskeyword(name) and name not in _TAKEN
+
+
+def _function(name: str, expr: sympy.Expr, symbols: list[str], meanings: dict[str, Any], summary: str,
               unit: str) -> list[str]:
     from sympy.printing.numpy import NumPyPrinter
 
-    arguments = [_argument(s) for s in symbols]
-    renamed = expr.xreplace({sympy.Symbol(s): sympy.Symbol(a) for s, a in zip(symbols, arguments)})
+    names = argument_names(symbols)
+    arguments = [names[s] for s in symbols]
+    renamed = expr.xreplace({sympy.Symbol(s): sympy.Symbol(a) for s, a in names.items()})
     body = NumPyPrinter({"fully_qualified_modules": True}).doprint(renamed)
-    lines = [f"def {name}({', '.join(arguments)}):", f'    """{summary} [{unit}].', "", "    Parameters",
-             "    ----------"]
+    doc = [f"{summary} [{unit}].", "", "Parameters", "----------"]
     for symbol, argument in zip(symbols, arguments):
         meaning = meanings.get(symbol)
         unit_of = meaning.unit if meaning is not None else "see netlist"
-        text = meaning.description if meaning is not None else symbol
-        lines += [f"    {argument} : float or numpy array", f"        {text} [{unit_of}]"]
-    lines.append('    """')
+        text = meaning.description if meaning is not None else f"the netlist symbol {symbol}"
+        shown = "" if argument == symbol else f" (symbol {symbol})"
+        doc += [f"{argument} : float or numpy array", f"    {text}{shown} [{unit_of}]"]
+    lines = [f"def {name}({', '.join(arguments)}):", "    " + docstring("\n".join(doc) + "\n", "    ")]
     if arguments:
         lines.append(f"    {', '.join(arguments)} = " + ", ".join(f"numpy.asarray({a}, dtype=float)" for a in arguments))
     return lines + [f"    return {body}", ""]
@@ -79,7 +146,7 @@ def python_source(formula: Formula, approximation: Any = None, name: str | None 
     name = name or function_name(formula)
     symbols = [s.name for s in formula.symbols]
     meanings = dict(formula.meanings)
-    lines = [f'"""{formula.label}: generated by symbias (a design aid; sign-off needs simulation)."""', "",
+    lines = [docstring(f"{formula.label}: generated by symbias (a design aid; sign-off needs simulation)."), "",
              "import numpy", ""]
     lines += _function(name, formula.expr, symbols, meanings, f"Exact {formula.label}", formula.unit)
     if approximation is not None:
