@@ -35,7 +35,7 @@ from .expressions.limits import (MAX_BITS, MAX_DECIMAL_EXPONENT, MAX_DIGITS, MAX
 __all__ = [
     "ABSOLUTE_ZERO", "MAX_TEMPERATURE", "temperature_problem",
     "MAX_SWEEP_POINTS", "check_points",
-    "MAX_ELEMENTS", "MAX_INCLUDE_DEPTH", "MAX_FILE_BYTES",
+    "MAX_ELEMENTS", "MAX_INCLUDE_DEPTH", "MAX_SUBCIRCUIT_DEPTH", "MAX_FILE_BYTES",
     "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES",
     "MEMORY_LIMIT", "MEMORY_VARIABLE", "memory_limit", "memory_guard", "out_of_memory",
     "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_LENGTH",
@@ -51,8 +51,10 @@ MAX_TEMPERATURE = 1000.0
 # -- sizes of the input ----------------------------------------------------------------------
 #: Most elements a netlist may hold once its subcircuits are flattened.
 MAX_ELEMENTS = 5_000
-#: Deepest nesting of ``.include``/``.lib`` files (and of subcircuit instances).
+#: Deepest nesting of ``.include``/``.lib`` files.
 MAX_INCLUDE_DEPTH = 20
+#: Deepest nesting of subcircuit instances.
+MAX_SUBCIRCUIT_DEPTH = 20
 #: Largest input file (netlist, included file, process or library file), in bytes.
 MAX_FILE_BYTES = 10_000_000
 
