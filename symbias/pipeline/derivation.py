@@ -156,12 +156,29 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
     request = request or DeriveRequest()
     wanted = request.quantities or default_quantities(target)
     bias = bias_point(target, request.at_bias, request.options) if request.at_bias is not None else None
-    results = []
+    formulas = []
     for quantity in wanted:
         function = QUANTITIES[quantity.kind][0]
-        formula = function(target.circuit, *quantity.arguments, options=request.options, backend=request.backend)
-        results.append(_extras(quantity, formula, request, bias))
+        formulas.append(function(target.circuit, *quantity.arguments, options=request.options,
+                                 backend=request.backend))
+    _check_assumptions(request, formulas)
+    results = [_extras(quantity, formula, request, bias) for quantity, formula in zip(wanted, formulas)]
     return Derivation(target, request, tuple(results), bias)
+
+
+def _check_assumptions(request: DeriveRequest, formulas) -> None:
+    """``--assume`` statements must be used and speak of symbols some derived result has."""
+    if not request.assumptions:
+        return
+    if not (request.approximate or request.sensitivities or request.transfer_error):
+        raise AssumptionError("assumptions are used by --approx, --sensitivity and --mirror-error: add one of them "
+                              "or leave the assumptions out", path="--assume")
+    from ..approx import check_symbols
+
+    try:
+        check_symbols(request.assumptions, {s.name for formula in formulas for s in formula.symbols})
+    except AssumptionError as err:
+        raise err.located(path="--assume") from None
 
 
 def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint | None) -> DerivedQuantity:
