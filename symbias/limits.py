@@ -36,7 +36,7 @@ __all__ = [
     "ABSOLUTE_ZERO", "MAX_TEMPERATURE", "temperature_problem",
     "MAX_SWEEP_POINTS", "check_points",
     "MAX_ELEMENTS", "MAX_INCLUDE_DEPTH", "MAX_SUBCIRCUIT_DEPTH", "MAX_FILE_BYTES",
-    "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES",
+    "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES", "MAX_RESULT_BITS",
     "MEMORY_LIMIT", "MEMORY_VARIABLE", "memory_limit", "memory_guard", "out_of_memory",
     "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_LENGTH",
     "MAX_TERMS",
@@ -68,7 +68,9 @@ MAX_SYMBOLS = 600
 #: Largest estimated term count of an exact result (an upper bound counted before the expansion).
 MAX_TERM_ESTIMATE = 50_000_000
 #: Most minors the exact expansion may visit.
-MAX_MINOR_STATES = 200_000
+MAX_MINOR_STATES = 40_000
+#: Largest coefficient of an exact result, in bits of numerator and denominator together (about 3,600 digits).
+MAX_RESULT_BITS = 12_000
 
 # -- memory --------------------------------------------------------------------------------
 #: Memory a command may take beyond what its libraries reserve at start-up, in bytes (1.75 GiB).
@@ -125,14 +127,15 @@ def memory_limit(environ: dict | None = None) -> int | None:
         return MEMORY_LIMIT
     if text in ("off", "none", "0", "unlimited"):
         return None
-    scale = {"k": 2**10, "m": 2**20, "g": 2**30, "t": 2**40}.get(text[-1:], 1)
-    number = text[:-1] if scale != 1 else text
+    number = text.removesuffix("b").removesuffix("i")
+    scale = {"k": 2**10, "m": 2**20, "g": 2**30, "t": 2**40}.get(number[-1:], 1)
+    number = number[:-1] if scale != 1 else number
     try:
-        size = int(float(number.removesuffix("i")) * scale)
+        size = int(float(number) * scale)
     except ValueError:
         size = 0
     if size <= 0:
-        raise LimitError(f"{MEMORY_VARIABLE}={text!r} is no size: write e.g. 4G, 900M or off", path=MEMORY_VARIABLE)
+        raise LimitError(f"{text!r} is no size: write e.g. 4G, 900M or off", path=MEMORY_VARIABLE)
     return size
 
 

@@ -352,8 +352,8 @@ def _element_or_instance(line, params, models, subckts, prefix, mapping, depth, 
 
 def _instance(line, tokens, params, models, subckts, prefix, mapping, depth, budget) -> list[Element]:
     if depth > MAX_SUBCIRCUIT_DEPTH:
-        raise LimitError(f"subcircuits nested more than MAX_SUBCIRCUIT_DEPTH = {MAX_SUBCIRCUIT_DEPTH} deep "
-                         "(a subcircuit that contains itself?)", line=line.number)
+        raise LimitError(f"subcircuits nested more than MAX_SUBCIRCUIT_DEPTH = {MAX_SUBCIRCUIT_DEPTH} deep; "
+                         "a subcircuit that contains itself? else flatten some levels", line=line.number)
     positional, named = _split_params(tokens[1:], line.number)
     if not positional:
         raise NetlistError(f"{tokens[0]}: missing subcircuit name", line=line.number)

@@ -21,6 +21,7 @@ from symbias.analyses import output_resistance
 from symbias.netlist import parse_netlist
 from symbias.render.python import argument_names, python_source
 from support.cli_checks import run_cli
+from support.harness import python_problem
 
 ALLOWED = {
     ast.Module, ast.Expr, ast.Constant, ast.Import, ast.alias, ast.FunctionDef, ast.arguments, ast.arg, ast.Assign,
@@ -88,3 +89,16 @@ def test_the_approximation_and_its_assumptions_stay_in_docstrings(tmp_path, monk
     tree, docstrings = check_module(out)
     assert [n.name for n in tree.body if isinstance(n, ast.FunctionDef)] == ["rout_at_vout", "rout_at_vout_approx"]
     assert any("RL >> ro" in doc for doc in docstrings)
+
+
+def test_several_quantities_make_one_module_with_distinct_functions(tmp_path, monkeypatch, capsys):
+    """Adversarial-run finding: each quantity used to bring its own module docstring and import."""
+    text = "t\nIref 0 a 1m\nQ1 a a 0 QN\nQ2 out a 0 QN\nVout out 0 1\n.model QN npn (BF=100 VAF=50)\n"
+    argv = ["derive", "deck.cir", "--rout", "Vout", "--rout", "Vout", "--gain", "Vout/Iref", "--format", "python"]
+    status, out, err, _ = run_cli(tmp_path, monkeypatch, capsys, argv, {"deck.cir": text})
+    assert status == 0, err
+    assert python_problem(out) is None
+    tree, _ = check_module(out)
+    names = [n.name for n in tree.body if isinstance(n, ast.FunctionDef)]
+    assert names == ["rout_at_vout", "rout_at_vout_2", "i_vout_i_iref"]
+    assert sum(isinstance(n, ast.Import) for n in tree.body) == 1

@@ -31,7 +31,7 @@ def add_target_argument(parser: argparse.ArgumentParser) -> None:
 def add_design_arguments(group) -> None:
     """Add --process, --temp and --set: what a circuit needs to become numbers."""
     group.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
-    group.add_argument("--temp", type=temperature, default=27.0, metavar="DEGC",
+    group.add_argument("--temp", type=temperature, default=None, metavar="DEGC",
                        help="temperature in degC (default 27; above -273.15, at most 1000)")
     group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
                        help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
@@ -102,7 +102,8 @@ def inputs_of(args: argparse.Namespace, target):
     from ..pipeline import design_inputs
 
     guess = parse_assignments(getattr(args, "guess", []), "--guess")
-    return design_inputs(target, args.process, args.temp, parse_assignments(args.set, "--set"), guess)
+    temp = 27.0 if args.temp is None else args.temp
+    return design_inputs(target, args.process, temp, parse_assignments(args.set, "--set"), guess)
 
 
 def print_renderables(renderables: Iterable[Any]) -> None:

@@ -123,6 +123,11 @@ def request_of(args: argparse.Namespace, target):
 
     quantities = [parse_quantity(kind, text, f"--{flag}") for flag, kind in _FLAGS.items()
                   for text in getattr(args, flag)]
+    if not args.at_bias:
+        given = [flag for flag, value in (("--process", args.process), ("--temp", args.temp), ("--set", args.set))
+                 if value is not None and value != []]
+        if given:
+            raise UsageError(f"{given[0]} is used with --at-bias: add it or leave {given[0]} out", path=given[0])
     return DeriveRequest(
         quantities=tuple(quantities),
         options=options_of(args),

@@ -542,7 +542,8 @@ def power(base: Expr, exponent: Expr) -> Expr:
     if isinstance(exponent, Number):
         e = exponent.value
         if abs(e) > MAX_EXPONENT:
-            raise LimitError(f"exponent {e} is too large (limit MAX_EXPONENT = {MAX_EXPONENT})")
+            raise LimitError(f"exponent {e} is too large (limit MAX_EXPONENT = {MAX_EXPONENT}); write the value as a "
+                             "number or a product of smaller powers")
         if e == 0:
             return ONE
         if e == 1:
@@ -556,7 +557,8 @@ def power(base: Expr, exponent: Expr) -> Expr:
             if e.denominator == 1:
                 bits = max(b.numerator.bit_length(), b.denominator.bit_length()) * abs(int(e))
                 if bits > MAX_BITS:
-                    raise LimitError(f"the number {b}**{e} is too large (limit MAX_BITS = {MAX_BITS} bits)")
+                    raise LimitError(f"the number {b}**{e} is too large (limit MAX_BITS = {MAX_BITS} bits); write it "
+                                     "with an exponent (1e300)")
                 return Number(b ** int(e))
             # an exact rational root where there is one (sqrt(4) = 2), else an irrational constant
             if b > 0:

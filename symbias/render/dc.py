@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["operating_point_tables", "operating_point_renderables", "states_renderables", "sweep_renderables",
            "render_to_string"]
@@ -30,12 +30,12 @@ def operating_point_tables(op) -> tuple[Any, Any, Any]:
     nodes.add_column("V", justify="right")
     for node, value in op.node_voltages.items():
         if node != "0":
-            nodes.add_row(node, f"{value:.6f}")
+            nodes.add_row(escaped(node), f"{value:.6f}")
     sources = Table(title="Branch currents (into the + terminal)", title_justify="left")
     sources.add_column("element")
     sources.add_column("I", justify="right")
     for name, value in {**op.branch_currents, **op.element_currents}.items():
-        sources.add_row(name, engineering(value, "A"))
+        sources.add_row(escaped(name), engineering(value, "A"))
     devices = Table(title=f"Devices at {op.temperature:g} degC", title_justify="left")
     for column in ("device", "type", "region", "IC/ID", "VBE/VGS", "VCE/VDS", "gm", "rpi/gmb", "ro", "VCEsat/Vov"):
         devices.add_column(column, justify="left" if column in ("device", "type", "region") else "right",
@@ -45,7 +45,7 @@ def operating_point_tables(op) -> tuple[Any, Any, Any]:
         v = dev.voltages
         s = dev.small_signal
         devices.add_row(
-            name, dev.type, dev.region,
+            escaped(name), dev.type, dev.region,
             engineering(dev.output_current, "A"),
             f"{(v['vbe'] if bjt else v['vgs']):.4f}",
             f"{(v['vce'] if bjt else v['vds']):.3f}",
@@ -59,14 +59,15 @@ def operating_point_tables(op) -> tuple[Any, Any, Any]:
 
 def operating_point_renderables(target, op) -> list[Any]:
     """Header, the three tables and the caution."""
-    header = (f"[bold]{target.title}[/bold]  ({target.where}, {op.temperature:g} degC, {op.method}, "
+    header = (f"[bold]{escaped(target.title)}[/bold]  ({escaped(target.where)}, {op.temperature:g} degC, {op.method}, "
               f"{op.iterations} iterations)")
     return [header, *operating_point_tables(op), f"[dim]{CAUTION}[/dim]"]
 
 
 def states_renderables(target, found, temperature: float) -> list[Any]:
     """Every DC state with its tables; a zero-current state flagged as needing start-up."""
-    out: list[Any] = [f"[bold]{target.title}[/bold]: {len(found.states)} DC solution(s) at {temperature:g} degC"]
+    out: list[Any] = [f"[bold]{escaped(target.title)}[/bold]: {len(found.states)} DC solution(s) at "
+                      f"{temperature:g} degC"]
     for i, state in enumerate(found.states, start=1):
         flag = "  [bold red]zero-current state: needs a start-up circuit[/bold red]" if state.zero_current else ""
         out.append(f"\n[bold]Solution {i}[/bold]: supply current {state.supply_current:.4g} A{flag}")
@@ -83,11 +84,12 @@ def sweep_renderables(target, result) -> list[Any]:
 
     sweep = result.sweep
     unit = "degC" if result.kind == "temperature" else ("V" if sweep.variable[0].upper() == "V" else "A")
-    header = (f"[bold]{target.title}[/bold]: {result.output} over {sweep.variable} = "
+    header = (f"[bold]{escaped(target.title)}[/bold]: {escaped(result.output)} over {escaped(sweep.variable)} = "
               f"{sweep.values[0]:g} .. {sweep.values[-1]:g} {unit} ({len(sweep.values)} points)")
     table = Table(title=f"{result.kind} metrics", title_justify="left")
     table.add_column("metric")
     table.add_column("value", justify="right")
     for key, value in result.metrics.to_dict().items():
-        table.add_row(key, "-" if value is None else (f"{value:.6g}" if isinstance(value, float) else str(value)))
+        shown = "-" if value is None else (f"{value:.6g}" if isinstance(value, float) else str(value))
+        table.add_row(escaped(key), escaped(shown))
     return [header, table, f"[dim]{CAUTION}[/dim]"]
