@@ -50,8 +50,13 @@ def _one_line_warnings(place: str):
     warning (numpy's "overflow encountered in multiply") is put at ``place``.
     """
 
+    shown: set[str] = set()
+
     def show(message, category, filename, lineno, file=None, line=None) -> None:
         text = " ".join(str(message).split())
+        if text in shown:  # the same warning from another line of the same loop says nothing new
+            return
+        shown.add(text)
         if issubclass(category, SymbiasWarning):
             where, _, rest = text.partition(": ")
             print(f"{where}: warning: {rest}" if rest else f"{place}: warning: {text}", file=sys.stderr)
