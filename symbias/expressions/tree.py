@@ -238,8 +238,6 @@ class Number(Expr):
         return int(self.value)
 
 
-
-
 class Symbol(Expr):
     """A named free symbol (case kept).
 
@@ -264,8 +262,6 @@ class Symbol(Expr):
         return (self.name,)
 
 
-
-
 class Sum(Expr):
     """A sum of two or more terms (build with ``+``, not directly)."""
 
@@ -285,8 +281,6 @@ class Sum(Expr):
 
     def children(self):
         return self.args
-
-
 
 
 class Product(Expr):
@@ -310,8 +304,6 @@ class Product(Expr):
         return self.args
 
 
-
-
 class Power(Expr):
     """``base**exponent`` (build with ``**``, not directly)."""
 
@@ -331,8 +323,6 @@ class Power(Expr):
 
     def children(self):
         return (self.base, self.exponent)
-
-
 
 
 class Call(Expr):
@@ -356,15 +346,9 @@ class Call(Expr):
         return (self.argument,)
 
 
-
-
 ZERO = Number(0)
 ONE = Number(1)
 MINUS_ONE = Number(-1)
-
-
-
-
 
 
 def _split_coefficient(expr: Expr) -> tuple[Fraction, Expr]:
