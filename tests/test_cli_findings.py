@@ -99,3 +99,33 @@ def test_floating_point_warnings_name_the_netlist_once_each(tmp_path, monkeypatc
     assert all(re.match(r"deck\.cir: warning: \S", line) for line in warnings), err
     assert len(warnings) == len(set(warnings))
     assert len([line for line in err.splitlines() if ": warning: " not in line]) <= 1
+
+
+def test_a_zero_result_is_its_own_approximation(tmp_path, monkeypatch, capsys):
+    """Adversarial-run finding: --approx on a transfer that is exactly zero ended in a numpy traceback."""
+    netlist = "t\nVdd n1 0 12\nR2 n2 0 1k\nR4 n4 0 100k\nM1 n1 n4 n4 0 NM W=10u L=1u\nVout n2 0 2.5\n" \
+              ".model NM nmos (VTO=0.5 KP=200u LAMBDA=0.05)\n"
+    status, out, err, _ = run_cli(tmp_path, monkeypatch, capsys,
+                                  ["derive", "deck.cir", "--gm", "Vout/Vdd", "--approx", "--json"],
+                                  {"deck.cir": netlist})
+    assert status == 0, err
+    import json
+
+    record = json.loads(out)
+    assert record["exact"].startswith("(0)/") and record["approx"] == "0"
+
+
+def test_sensitivities_of_a_four_transistor_cascode_keep_readable_forms_only(tmp_path, monkeypatch, capsys):
+    """Adversarial-run finding: sympy factored 60-term sensitivities for minutes; large ones now give values."""
+    from symbias.analyses import output_resistance
+    from symbias.netlist import read_netlist
+    from symbias.sensitivity import SYMBOLIC_RESULT_TERMS, sensitivities, sensitivity
+
+    shown = []
+    for deck in ("bjt_cascode_mirror", "mos_cascode_mirror"):
+        formula = output_resistance(read_netlist(ROOT / "tests/decks" / f"{deck}.cir"), "Vout")
+        for row in sensitivities(formula):
+            size = sum(sensitivity(formula, row.symbol).nterms)
+            assert (row.expr is None) == (size > SYMBOLIC_RESULT_TERMS), (row.symbol, size)
+            shown.append(row.expr is not None)
+    assert any(shown) and not all(shown)

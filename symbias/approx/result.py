@@ -220,8 +220,8 @@ def approximate(
     _check_options(tolerance, samples)
     names = [s.name for s in formula.symbols]
     nN, nD = formula.nterms
-    if not names or (nN <= 1 and nD <= 1):
-        # a single term (or a number) is its own approximation
+    if not names or nN == 0 or (nN <= 1 and nD <= 1):
+        # a single term, a number or zero is its own approximation
         return Approximation(formula, formula, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed, ((nN, nN), (nD, nD)))
     model = magnitude_model(names, assumptions, defaults=defaults, meanings=formula.meanings)
     corners = model.corners(seed)

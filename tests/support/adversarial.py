@@ -8,6 +8,7 @@ drawn from one of these families:
                 values; garbage bytes), with random ``derive`` arguments
 ``tweaked``     a shipped netlist with a mild change (mostly still valid)
 ``random``      a random netlist over every element letter, valid or not
+``circuits``    a random valid bias circuit (grounded, connected) under every command
 ``invalid``     a shipped netlist with one change that makes it invalid for sure
                 (an unknown letter, a duplicate name, a self-referring or
                 misnamed ``.param``, a subcircuit defined twice, ``.match`` on a
@@ -56,7 +57,8 @@ import time
 from pathlib import Path
 from typing import Callable, Iterator
 
-from .families import INVALID_EDITS, library_case, option_case, output_case, process_case, size_case, unicode_case
+from .families import (INVALID_EDITS, circuit_case, library_case, option_case, output_case, process_case, size_case,
+                       unicode_case)
 from .harness import BAD_KINDS, Case, Outcome, prewarm, run_cases
 from .netlists import GOOD, SEEDS, any_command, derive_arguments, mutate, random_netlist, text_of, tweak
 
@@ -96,15 +98,16 @@ def _invalid(rng: random.Random, index: int) -> Case:
 
 #: Family name -> (weight, maker).
 FAMILIES: dict[str, tuple[float, Family]] = {
-    "mutated": (0.17, _mutated),
-    "tweaked": (0.06, _tweaked),
-    "random": (0.09, _random),
-    "invalid": (0.20, _invalid),
+    "mutated": (0.15, _mutated),
+    "tweaked": (0.05, _tweaked),
+    "random": (0.07, _random),
+    "circuits": (0.10, circuit_case),
+    "invalid": (0.18, _invalid),
     "unicode": (0.06, unicode_case),
     "size": (0.03, size_case),
     "process": (0.09, process_case),
     "library": (0.07, library_case),
-    "options": (0.16, option_case),
+    "options": (0.14, option_case),
     "outputs": (0.07, output_case),
 }
 

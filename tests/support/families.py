@@ -23,7 +23,7 @@ from .harness import Case
 from .netlists import GOOD, PROCESS, SEEDS, TOPOLOGIES, any_command, text_of
 
 __all__ = ["INVALID_EDITS", "unicode_case", "size_case", "process_case", "library_case", "option_case",
-           "output_case"]
+           "output_case", "random_circuit", "circuit_case"]
 
 Edit = Callable[[str, random.Random], tuple]
 BAD_TEMPERATURES = ["-300", "-273.15", "1e308", "nan", "inf", "-inf", "1001", "-1e9"]
@@ -298,7 +298,7 @@ def library_case(rng: random.Random, index: int) -> Case:
     command = rng.choice([["show", f"lib/{ident}.toml", "--no-derive"], ["show", ident, "--library", "lib"],
                           ["derive", f"lib/{ident}.toml", "--json"], ["list", "--library", "lib", "--json"],
                           ["bias", ident, "--library", "lib"]])
-    if rng.random() < 0.1:
+    if rng.random() < 0.1 and "--library" in command:  # a twin matters where the folder is searched
         files["lib/twin.toml"] = text
         why = "two files with one identifier"
     return Case(index, "library", tuple(command), files, invalid=why)
@@ -396,3 +396,58 @@ def output_case(rng: random.Random, index: int) -> Case:
     seed = text_of(rng.choice(SEEDS))
     return Case(index, "outputs", ("deck", "deck.cir", "-o", "old.cir"), {"deck.cir": seed, **old},
                 outputs=("old.cir",))
+
+
+def random_circuit(rng: random.Random) -> str:
+    """A random connected, grounded bias circuit: supplies, sources, resistors, transistors (valid by design)."""
+    count = rng.randint(2, 7)
+    nodes = ["0"] + [f"n{k}" for k in range(1, count)]
+    lines = ["random circuit", f"Vdd n1 0 {rng.choice(['5', '3.3', '1.8', '12'])}"]
+    for k in range(2, count):  # a tree: each node hangs from an earlier one, so everything reaches ground
+        lines.append(f"R{k} n{k} {rng.choice(nodes[:k])} {rng.choice(['1k', '10k', '4.7k', '100k', '{RX}'])}")
+    letters = "QQMMRRCIG"
+    for index in range(rng.randint(1, 6)):
+        letter = rng.choice(letters)
+        a, b, c = (rng.choice(nodes) for _ in range(3))
+        if letter == "Q":
+            lines.append(f"Q{index} {a} {b} {c} {rng.choice(['QN', 'QP'])}" + rng.choice(["", " 2", " m=3"]))
+        elif letter == "M":
+            lines.append(f"M{index} {a} {b} {c} {rng.choice([c, '0'])} {rng.choice(['NM', 'PM'])} W=10u L=1u")
+        elif letter == "R" and a != b:
+            lines.append(f"Rx{index} {a} {b} {rng.choice(['2k', '{RX}', '1meg'])}")
+        elif letter == "C" and a != b:
+            lines.append(f"C{index} {a} {b} 1p")
+        elif letter == "I" and a != b:
+            lines.append(f"I{index} {a} {b} {rng.choice(['10u', '100u', '1m'])}")
+        elif letter == "G" and a != b:
+            lines.append(f"G{index} {a} {b} {rng.choice([f'{a} {b}', f'{b} {a}'])} 1m")
+    if rng.random() < 0.6:
+        lines.append(f"Vout {rng.choice(nodes[1:])} 0 {rng.choice(['0', '1', '2.5'])}")
+    lines += [".model QN npn (BF=100 VAF=50)", ".model QP pnp (BF=50 VAF=30)", ".model NM nmos (VTO=0.5 KP=200u "
+              "LAMBDA=0.05)", ".model PM pmos (VTO=-0.5 KP=80u LAMBDA=0.05)"]
+    return "\n".join(lines) + "\n"
+
+
+def circuit_case(rng: random.Random, index: int) -> Case:
+    """A random valid circuit under every command, options included (deep code paths, numbers at the edges)."""
+    text = random_circuit(rng)
+    symbols = ["--set", "RX=2.2k"] if "{RX}" in text else []
+    pick = rng.randrange(6)
+    if pick == 0:
+        argv = ["bias", "deck.cir", *symbols] + rng.choice([[], ["--all"], ["--json"]])
+    elif pick == 1:
+        vary = rng.choice(["Vdd", "temp"] + (["Vout"] if "Vout" in text else []))
+        low, high = ("-40", "125") if vary == "temp" else ("0", "5")
+        argv = ["sweep", "deck.cir", "--vary", vary, "--from", low, "--to", high, "--points", "11", *symbols]
+        argv += rng.choice([[], ["--json"], ["--out", "V(n1)"]])
+    elif pick == 2:
+        argv = ["deck", "deck.cir", *symbols]
+    else:
+        quantity = rng.choice([[], ["--rout", "n1"], ["--rout", rng.choice(["n2", "n3", "Vout"])],
+                               ["--vgain", "n2/Vdd"], ["--gm", "Vout/Vdd"]])
+        extra = rng.choice([[], ["--approx"], ["--sensitivity"], ["--at-bias", *symbols], ["--match", "--beta"],
+                            ["--level", "full"], ["--capacitances"], ["--approx", "--sensitivity", "--at-bias",
+                                                                      *symbols]])
+        argv = ["derive", "deck.cir", *quantity, *extra] + rng.choice([[], ["--json"], ["--latex"],
+                                                                       ["--format", "python"]])
+    return Case(index, "circuits", tuple(argv), {"deck.cir": text})
