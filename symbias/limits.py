@@ -37,6 +37,7 @@ __all__ = [
     "MAX_SWEEP_POINTS", "check_points",
     "MAX_ELEMENTS", "MAX_INCLUDE_DEPTH", "MAX_SUBCIRCUIT_DEPTH", "MAX_FILE_BYTES",
     "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES", "MAX_RESULT_BITS",
+    "MAX_DERIVED_TERMS", "MAX_PRINTED_TERMS", "check_terms",
     "MEMORY_LIMIT", "MEMORY_VARIABLE", "memory_limit", "memory_guard", "out_of_memory",
     "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_LENGTH",
     "MAX_TERMS",
@@ -71,6 +72,10 @@ MAX_TERM_ESTIMATE = 50_000_000
 MAX_MINOR_STATES = 40_000
 #: Largest coefficient of an exact result, in bits of numerator and denominator together (about 3,600 digits).
 MAX_RESULT_BITS = 12_000
+#: Largest exact result (numerator plus denominator terms) that --approx, --sensitivity and --mirror-error work on.
+MAX_DERIVED_TERMS = 20_000
+#: Largest exact result written out in full (JSON, LaTeX, Markdown; the text form summarises larger ones).
+MAX_PRINTED_TERMS = 200_000
 
 # -- memory --------------------------------------------------------------------------------
 #: Memory a command may take beyond what its libraries reserve at start-up, in bytes (1.75 GiB).
@@ -107,6 +112,18 @@ def check_points(points: int, where: str = "--points") -> int:
         raise LimitError(f"a sweep of {points} points is more than MAX_SWEEP_POINTS = {MAX_SWEEP_POINTS}; "
                          "sweep a narrower range, or split it into several sweeps", path=where)
     return points
+
+
+def check_terms(terms: int, limit: int, name: str, what: str, instead: str, path: str | None = None) -> None:
+    """A :class:`LimitError` when a result of ``terms`` terms is beyond ``limit`` for ``what``.
+
+    Examples
+    --------
+    >>> check_terms(10, MAX_DERIVED_TERMS, "MAX_DERIVED_TERMS", "--approx", "use fewer symbols")
+    """
+    if terms > limit:
+        raise LimitError(f"the exact result has {terms} terms, more than {name} = {limit} for {what}; {instead}",
+                         path=path)
 
 
 def memory_limit(environ: dict | None = None) -> int | None:

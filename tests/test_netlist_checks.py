@@ -7,7 +7,8 @@ resistors and ``m=0`` on a device passed ``derive`` (``bias`` refused m=0).
 Also checked: a parameter used before it is defined, a parameter or a
 matched group defined twice, a device in two matched groups, an instance
 parameter its subcircuit does not declare, digits outside ASCII (a number is
-ASCII digits only), and a stray ``.endl``.
+ASCII digits only), a stray ``.endl``, and ``inf`` or ``nan`` as a value
+(they read as names and became symbols).
 """
 
 from __future__ import annotations
@@ -46,6 +47,8 @@ CASES = [
     ("mos-length-zero", BASE + "M1 x x 0 0 NM W=10u L=0\n.model NM nmos\n", NetlistError, 3, "l must be positive"),
     ("arabic-indic-digits", BASE + "R1 x 0 \u0661\u0662\n", NetlistError, 3, "expected a number"),
     ("stray-endl", BASE + "R1 x 0 1k\n.endl\n", NetlistError, 4, "unknown control card '.endl'"),
+    ("value-inf", BASE + "R1 x 0 inf\n", NetlistError, 3, "'inf' is not a value"),
+    ("value-nan-in-an-expression", BASE + "R1 x 0 {1/NaN}\n", NetlistError, 3, "'NaN' is not a value"),
 ]
 
 

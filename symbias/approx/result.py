@@ -21,6 +21,7 @@ import numpy as np
 
 from ..errors import AssumptionError
 from ..formula import Formula
+from ..limits import MAX_DERIVED_TERMS, check_terms
 from .magnitudes import MagnitudeModel, magnitude_model
 from .search import TermSearch
 from .statements import Assumption
@@ -206,6 +207,8 @@ def approximate(
     AssumptionError
         If no point satisfies every assumption, or for a bad tolerance or
         sample count.
+    LimitError
+        For a formula of more than :data:`~symbias.limits.MAX_DERIVED_TERMS` terms.
     AnalysisError
         For frequency-dependent results.
 
@@ -220,6 +223,8 @@ def approximate(
     _check_options(tolerance, samples)
     names = [s.name for s in formula.symbols]
     nN, nD = formula.nterms
+    check_terms(nN + nD, MAX_DERIVED_TERMS, "MAX_DERIVED_TERMS", "an approximation",
+                "use fewer symbols or numbers for some of them")
     if not names or nN == 0 or (nN <= 1 and nD <= 1):
         # a single term, a number or zero is its own approximation
         return Approximation(formula, formula, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed, ((nN, nN), (nD, nD)))

@@ -157,11 +157,14 @@ def output_format(args: argparse.Namespace) -> str:
 def run(args: argparse.Namespace) -> int:
     """Derive, then print as text, LaTeX, Markdown, JSON or Python (everything computed first)."""
     from ..pipeline import derive
+    from ..pipeline.derivation import check_printable
     from .common import print_json, print_renderables, target_of
 
     form = output_format(args)
     target = target_of(args)
     derivation = derive(target, request_of(args, target))
+    if form != "text":
+        check_printable(derivation)
     if form == "json":
         from ..render.json import derivation_record
 

@@ -244,7 +244,7 @@ class _Parser:
                 self.level -= 1
                 self.expect(")")
                 return call(text, argument)
-            return self.names.get(text.lower(), Symbol(text))
+            return _named(text, self.names)
         if text == "(":
             self.deeper()
             value = self.sum()
@@ -252,6 +252,18 @@ class _Parser:
             self.expect(")")
             return value
         raise NetlistError(f"unexpected {text!r} in expression {_short(self.text)!r}")
+
+
+#: Words that read as names but mean a number that is not finite; refused rather than made symbols.
+_NOT_FINITE = frozenset({"nan", "inf", "infinity"})
+
+
+def _named(text: str, names: Mapping[str, Expr]) -> Expr:
+    """A ``.param`` value or a free symbol; ``nan`` and ``inf`` are refused (no value is infinite or undefined)."""
+    if text.lower() in _NOT_FINITE:
+        raise NetlistError(f"{text!r} is not a value: numbers must be finite (an open circuit is no element, a short a "
+                           "0 V source)")
+    return names.get(text.lower(), Symbol(text))
 
 
 def _finite_real(value: Expr, text: str) -> Expr:
@@ -314,5 +326,5 @@ def parse_value(text: str, names: Mapping[str, Expr] | None = None) -> Expr:
     if number is not None:
         return number
     if _NAME.fullmatch(text):
-        return (names or {}).get(text.lower(), Symbol(text))
+        return _named(text, names or {})
     raise NetlistError(f"expected a number, a name or {{expression}}, got {_short(text)!r}")

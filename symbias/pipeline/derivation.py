@@ -30,7 +30,7 @@ from .bias import BiasPoint, bias_point
 from .quantities import Quantity, default_quantities
 from .targets import DesignInputs, Target
 
-__all__ = ["DeriveRequest", "DerivedQuantity", "Derivation", "derive", "value_at"]
+__all__ = ["DeriveRequest", "DerivedQuantity", "Derivation", "derive", "value_at", "check_printable"]
 
 
 @dataclass(frozen=True)
@@ -181,7 +181,16 @@ def _check_assumptions(request: DeriveRequest, formulas) -> None:
         raise err.located(path="--assume") from None
 
 
+_FEWER = "use fewer symbols (leave out --symbolic, a lower --level, --match) or numbers for free symbols"
+
+
 def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint | None) -> DerivedQuantity:
+    from ..limits import MAX_DERIVED_TERMS, check_terms
+
+    if request.approximate or request.sensitivities or request.transfer_error:
+        check_terms(sum(formula.nterms), MAX_DERIVED_TERMS, "MAX_DERIVED_TERMS",
+                    "--approx, --sensitivity and --mirror-error", _FEWER, formula.problem.network.path
+                    if formula.problem is not None else None)
     options = dict(defaults=request.default_assumptions, tolerance=request.tolerance, samples=request.samples,
                    seed=request.seed)
     try:
@@ -222,6 +231,27 @@ def _sensitivities(formula, request: DeriveRequest, approximation, bias: BiasPoi
                                     meanings=formula.meanings)
         point = model.centre() if model is not None else {}
     return sensitivities(formula, point), point
+
+
+def check_printable(derivation: Derivation) -> None:
+    """Refuse to write out in full an exact result beyond :data:`~symbias.limits.MAX_PRINTED_TERMS` terms.
+
+    Raises
+    ------
+    LimitError
+        Saying that the text form summarises such a result.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target
+    >>> check_printable(derive(load_target("examples/simple_mirror.cir")))
+    """
+    from ..limits import MAX_PRINTED_TERMS, check_terms
+
+    for result in derivation.results:
+        check_terms(sum(result.formula.nterms), MAX_PRINTED_TERMS, "MAX_PRINTED_TERMS", "writing it out in full",
+                    f"the text form summarises it; or {_FEWER}",
+                    derivation.target.where)
 
 
 def value_at(formula, values: Mapping[str, float]) -> tuple[float | None, tuple[str, ...]]:
