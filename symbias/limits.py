@@ -29,8 +29,8 @@ from contextlib import contextmanager
 from typing import Iterator
 
 from .errors import LimitError
-from .expressions.limits import (MAX_BITS, MAX_DECIMAL_EXPONENT, MAX_DIGITS, MAX_EXPONENT, MAX_LENGTH, MAX_NESTING,
-                                 MAX_NODES, MAX_TERMS)
+from .expressions.limits import (MAX_BITS, MAX_DECIMAL_EXPONENT, MAX_DEPTH, MAX_DIGITS, MAX_EXPONENT, MAX_LENGTH,
+                                 MAX_NESTING, MAX_NODES, MAX_TERMS)
 
 __all__ = [
     "ABSOLUTE_ZERO", "MAX_TEMPERATURE", "temperature_problem",
@@ -39,8 +39,8 @@ __all__ = [
     "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES", "MAX_RESULT_BITS",
     "MAX_DERIVED_TERMS", "MAX_PRINTED_TERMS", "check_terms",
     "MEMORY_LIMIT", "MEMORY_VARIABLE", "memory_limit", "memory_guard", "out_of_memory",
-    "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_LENGTH",
-    "MAX_TERMS",
+    "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_DEPTH",
+    "MAX_LENGTH", "MAX_TERMS",
 ]
 
 # -- physical range ------------------------------------------------------------------------

@@ -61,6 +61,8 @@ CASES = [
      ["derive", "--rout", "x"], "MAX_LENGTH"),
     ("2500-term-sum", "t\nI1 0 x 1m\nR1 x 0 {" + "+".join(f"x{i}" for i in range(2500)) + "}\n",
      ["derive", "--rout", "x"], "MAX_NODES"),
+    ("600-wrapping-param-steps", "t\n.param a0=x\n" + "".join(f".param a{k + 1}={{(a{k}+1)*y}}\n" for k in range(600))
+     + "I1 0 n 1m\nR1 n 0 {a600}\n", ["derive", "--rout", "n"], "MAX_DEPTH"),
     ("200-nested-parentheses", "t\nI1 0 x 1m\nR1 x 0 {" + "(" * 200 + "1" + ")" * 200 + "}\n",
      ["derive", "--rout", "x"], "MAX_NESTING"),
     ("sweep-200000-points", "", ["sweep", "--vary", "Vout", "--from", "0", "--to", "5", "--points", "200000"],

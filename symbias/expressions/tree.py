@@ -23,7 +23,7 @@ from fractions import Fraction
 from typing import Any, Iterable, Mapping
 
 from ..errors import LimitError, NetlistError
-from .limits import MAX_BITS, MAX_EXPONENT, MAX_NODES
+from .limits import MAX_BITS, MAX_DEPTH, MAX_EXPONENT, MAX_NODES
 
 __all__ = ["Expr", "Number", "Symbol", "Sum", "Product", "Power", "Call", "coerce", "substitute", "add", "multiply",
            "power", "call", "ZERO", "ONE", "MINUS_ONE", "FUNCTIONS"]
@@ -52,6 +52,9 @@ class Expr:
         if self.size > MAX_NODES:
             raise LimitError(f"expression has more than {MAX_NODES} nodes (limit MAX_NODES); "
                              "give the value as a number or split it into .param steps that reduce to numbers")
+        if self.depth > MAX_DEPTH:
+            raise LimitError(f"expression nests more than {MAX_DEPTH} levels (limit MAX_DEPTH), as .param steps that "
+                             "each wrap the last can build; give some intermediate values as numbers")
         self._hash = None
         self._text = None
 

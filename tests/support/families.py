@@ -192,9 +192,15 @@ def _dense(n: int) -> str:
 
 def size_case(rng: random.Random, index: int) -> Case:
     """Growth in every direction the tool has a limit for; invalid where a limit is surely passed."""
-    pick = rng.randrange(9)
+    pick = rng.randrange(10)
     invalid = ""
-    if pick == 0:
+    if pick == 9:  # .param steps that each wrap the last: a deep tree from short lines
+        n = rng.choice([10, 50, 70, 600])
+        text = "wrapped\n.param a0=x\n" + "".join(f".param a{k + 1}={{(a{k}+1)*y}}\n" for k in range(n)) + \
+            f"I1 0 n 1m\nR1 n 0 {{a{n}}}\n"
+        argv = ["derive", "deck.cir", "--rout", "n"] + rng.choice([[], ["--json"], ["--latex"]])
+        invalid = "a tree deeper than MAX_DEPTH" if n >= 70 else ""
+    elif pick == 0:
         n = rng.choice([10, 100, 300, 399, 450, 2600])
         text, argv = _ladder(n), rng.choice([["derive", "deck.cir", "--rout", "n0"], ["bias", "deck.cir"]])
         invalid = "more than MAX_ELEMENTS" if 2 * n > 5000 else ""
