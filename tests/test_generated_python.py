@@ -6,13 +6,16 @@ prints, which then ran ``+[]+`` on import.  Every generated module is parsed
 here with :mod:`ast` and its nodes are checked against the few kinds a
 numpy formula needs (no list, subscript, lambda, comprehension, import other
 than numpy, string other than a docstring); every name it uses is an
-argument, ``numpy`` or ``float``; and the text of each docstring reads back
-exactly as the hostile name was written.
+argument, ``numpy``, ``float`` or the locals ``_top`` and ``_bottom``; the text
+of each docstring reads back exactly as the hostile name was written; and a
+module for a result of thousands of terms still compiles (one long sum used to
+nest too deep for Python's compiler).
 """
 
 from __future__ import annotations
 
 import ast
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -47,7 +50,7 @@ def check_module(source: str) -> tuple[ast.Module, list[str]]:
         if isinstance(node, ast.Import):
             assert [a.name for a in node.names] == ["numpy"]
         if isinstance(node, ast.Name):
-            assert node.id in arguments | {"numpy", "float"}, node.id
+            assert node.id in arguments | {"numpy", "float", "_top", "_bottom"}, node.id
         if isinstance(node, ast.Attribute):
             assert isinstance(node.value, ast.Name) and node.value.id == "numpy"
     return tree, docstrings
@@ -102,3 +105,19 @@ def test_several_quantities_make_one_module_with_distinct_functions(tmp_path, mo
     names = [n.name for n in tree.body if isinstance(n, ast.FunctionDef)]
     assert names == ["rout_at_vout", "rout_at_vout_2", "i_vout_i_iref"]
     assert sum(isinstance(n, ast.Import) for n in tree.body) == 1
+
+
+def test_a_result_of_thousands_of_terms_still_compiles_and_evaluates():
+    from symbias.netlist import read_netlist
+    from symbias.devices.options import SmallSignalOptions
+
+    formula = output_resistance(read_netlist(Path(__file__).resolve().parents[1] / "examples/wilson_mirror.cir"), "Vout",
+                                SmallSignalOptions(parasitics=("rb", "re", "rmu")))
+    assert sum(formula.nterms) > 1000
+    source = python_source(formula)
+    assert python_problem(source) is None
+    namespace: dict = {}
+    exec(compile(source, "<generated>", "exec"), namespace)  # noqa: S102 - checked above: numpy formulas only
+    values = {s.name: 1e-3 * (k + 1) if s.name.startswith("gm") else 1e3 * (k + 1) for k, s in enumerate(formula.symbols)}
+    result = namespace["rout_at_vout"](*[values[s.name] for s in formula.symbols])
+    np.testing.assert_allclose(result, formula.evaluate(values), rtol=1e-9)

@@ -6,8 +6,10 @@ with its meaning and unit.
 
 Generated code holds only identifiers this module makes itself: function
 names from the quantity, argument names from symbol names that pass
-:func:`argument_names` (others become ``x1``, ``x2``...), ``numpy`` and
-``float``.  Text that comes from the netlist or the command line (element
+:func:`argument_names` (others become ``x1``, ``x2``...), the locals
+``_top`` and ``_bottom`` (no argument starts with ``_``), ``numpy`` and
+``float``.  Long sums are split over lines of :data:`CHUNK_TERMS` terms, so a
+large result still compiles.  Text that comes from the netlist or the command line (element
 names, labels, meanings, assumptions) appears only inside docstrings, with
 every quote, backslash and control character escaped (:func:`docstring`), so
 it can never end the string and run as code.
@@ -33,7 +35,7 @@ import sympy
 
 from ..formula import Formula
 
-__all__ = ["python_source", "function_name", "derivation_python", "docstring", "argument_names"]
+__all__ = ["python_source", "function_name", "derivation_python", "docstring", "argument_names", "CHUNK_TERMS"]
 
 _PLAIN = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,63}", re.ASCII)
 _TAKEN = frozenset({"numpy", "float"})
@@ -112,14 +114,32 @@ def _plain(name: str) -> bool:
     return bool(_PLAIN.fullmatch(name)) and not keyword.iskeyword(name) and name not in _TAKEN
 
 
-def _function(name: str, expr: sympy.Expr, symbols: list[str], meanings: dict[str, Any], summary: str,
+#: Terms per line of a generated sum: a long sum on one line nests too deep for Python's own compiler.
+CHUNK_TERMS = 64
+
+
+def _sum_lines(variable: str, expr: sympy.Expr, renaming: dict, printer) -> list[str]:
+    """``variable = ...`` over as many lines as the terms of ``expr`` need, :data:`CHUNK_TERMS` a line."""
+    import sympy
+
+    terms = sympy.Add.make_args(expr.xreplace(renaming))
+    lines = []
+    for start in range(0, len(terms), CHUNK_TERMS):
+        part = printer.doprint(sympy.Add(*terms[start:start + CHUNK_TERMS]))
+        lines.append(f"    {variable} = {part}" if not start else f"    {variable} = {variable} + ({part})")
+    return lines
+
+
+def _function(name: str, parts: tuple, symbols: list[str], meanings: dict[str, Any], summary: str,
               unit: str) -> list[str]:
+    """A numpy function computing ``parts[0] / parts[1]`` (numerator, denominator) from the symbols."""
+    import sympy
     from sympy.printing.numpy import NumPyPrinter
 
     names = argument_names(symbols)
     arguments = [names[s] for s in symbols]
-    renamed = expr.xreplace({sympy.Symbol(s): sympy.Symbol(a) for s, a in names.items()})
-    body = NumPyPrinter({"fully_qualified_modules": True}).doprint(renamed)
+    renaming = {sympy.Symbol(s): sympy.Symbol(a) for s, a in names.items()}
+    printer = NumPyPrinter({"fully_qualified_modules": True})
     doc = [f"{summary} [{unit}].", "", "Parameters", "----------"]
     for symbol, argument in zip(symbols, arguments):
         meaning = meanings.get(symbol)
@@ -130,20 +150,25 @@ def _function(name: str, expr: sympy.Expr, symbols: list[str], meanings: dict[st
     lines = [f"def {name}({', '.join(arguments)}):", "    " + docstring("\n".join(doc) + "\n", "    ")]
     if arguments:
         lines.append(f"    {', '.join(arguments)} = " + ", ".join(f"numpy.asarray({a}, dtype=float)" for a in arguments))
-    return lines + [f"    return {body}", ""]
+    numerator, denominator = parts
+    lines += _sum_lines("_top", numerator, renaming, printer)
+    if denominator == 1:
+        return lines + ["    return _top", ""]
+    return lines + _sum_lines("_bottom", denominator, renaming, printer) + ["    return _top / _bottom", ""]
 
 
 def _formula_functions(formula: Formula, approximation: Any, name: str) -> list[str]:
     """The function of the exact form and, when given, of its approximation."""
     symbols = [s.name for s in formula.symbols]
     meanings = dict(formula.meanings)
-    lines = _function(name, formula.expr, symbols, meanings, f"Exact {formula.label}", formula.unit)
+    exact = (formula.numerator_expr, formula.denominator_expr)
+    lines = _function(name, exact, symbols, meanings, f"Exact {formula.label}", formula.unit)
     if approximation is not None:
         used = sorted(s.name for s in approximation.expr.free_symbols)
         note = (f"Approximate {formula.label}, worst relative error {100 * approximation.error:.3g} % under "
                 + "; ".join(str(a) for a in approximation.assumptions if a.origin in ("user", "default")))
-        lines += [""] + _function(f"{name}_approx", approximation.expr, used, meanings, note.rstrip("; "),
-                                  formula.unit)
+        lines += [""] + _function(f"{name}_approx", approximation.expr.as_numer_denom(), used, meanings,
+                                  note.rstrip("; "), formula.unit)
     return lines
 
 

@@ -225,7 +225,10 @@ def _finish(running: _Running, wait_status: int | None, usage, killed: bool) -> 
         name = signal.Signals(os.WTERMSIG(wait_status)).name
         return Outcome(case, "crash", None, seconds, peak, name, err[-300:])
     status = os.WEXITSTATUS(wait_status)
-    kind, message, detail = judge(case, status, out, err, running.before, after)
+    try:
+        kind, message, detail = judge(case, status, out, err, running.before, after)
+    except Exception as failure:  # noqa: BLE001 - a judge that cannot judge is reported, never lost
+        kind, message, detail = "traceback", "", f"the judge failed: {type(failure).__name__}: {failure}"
     if kind not in BAD_KINDS and peak * 1024 >= MEMORY_CEILING:
         kind, detail = "memory", f"peak resident memory {peak / 2**20:.2f} GiB"
     return Outcome(case, kind, status, seconds, peak, message, detail)
@@ -363,8 +366,9 @@ def python_problem(source: str) -> str | None:
     r'''What in a generated module goes beyond numpy formulas with docstrings, or None.
 
     Allowed: the node kinds a numpy formula needs, strings only as docstrings,
-    ``import numpy`` only, names that are arguments, ``numpy`` or ``float``,
-    attributes of ``numpy`` only.
+    ``import numpy`` only, names that are arguments, ``numpy``, ``float`` or the
+    locals ``_top`` and ``_bottom``, attributes of ``numpy`` only; and the
+    module must compile (a sum too long for one line does not).
 
     Examples
     --------
@@ -375,8 +379,9 @@ def python_problem(source: str) -> str | None:
     '''
     try:
         tree = ast.parse(source)
-    except SyntaxError as err:
-        return f"does not parse: {err}"
+        compile(tree, "<generated>", "exec")
+    except (SyntaxError, RecursionError, MemoryError, ValueError) as err:
+        return f"does not compile: {type(err).__name__}: {err}"
     bodies = [tree.body] + [n.body for n in ast.walk(tree) if isinstance(n, ast.FunctionDef)]
     docs = {id(body[0].value) for body in bodies if body and isinstance(body[0], ast.Expr)}
     arguments = {a.arg for n in ast.walk(tree) if isinstance(n, ast.FunctionDef) for a in n.args.args}
@@ -387,7 +392,7 @@ def python_problem(source: str) -> str | None:
             return "a string that is not a docstring"
         if isinstance(node, ast.Import) and [a.name for a in node.names] != ["numpy"]:
             return "an import other than numpy"
-        if isinstance(node, ast.Name) and node.id not in arguments | {"numpy", "float"}:
+        if isinstance(node, ast.Name) and node.id not in arguments | {"numpy", "float", "_top", "_bottom"}:
             return f"the name {node.id}"
         if isinstance(node, ast.Attribute) and not (isinstance(node.value, ast.Name) and node.value.id == "numpy"):
             return "an attribute of something other than numpy"
