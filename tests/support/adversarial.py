@@ -88,7 +88,7 @@ def _invalid(rng: random.Random, index: int) -> Case:
     content, why, extra = edit(text, rng)
     shown = content.decode("utf-8", "replace") if isinstance(content, bytes) else content
     argv = any_command(shown, rng)
-    if "(derive" in why and argv[0] != "derive":
+    if "(derive" in why or "device symbol" in why:  # invalid as unmatched names only (--match shares on purpose)
         argv = ["derive", "deck.cir", "--json"]
     if "--symbolic" in why and "--symbolic" not in argv:
         argv.append("--symbolic")
