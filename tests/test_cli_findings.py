@@ -129,3 +129,10 @@ def test_sensitivities_of_a_four_transistor_cascode_keep_readable_forms_only(tmp
             assert (row.expr is None) == (size > SYMBOLIC_RESULT_TERMS), (row.symbol, size)
             shown.append(row.expr is not None)
     assert any(shown) and not all(shown)
+
+
+def test_a_library_folder_that_is_a_file_says_so(tmp_path, monkeypatch, capsys):
+    monkeypatch.setenv("SYMBIAS_LIBRARY", "deck.cir")
+    status, out, err, _ = run_cli(tmp_path, monkeypatch, capsys, ["list"], {"deck.cir": MIRROR})
+    error = one_error_line(err)
+    assert status == 2 and error["where"] == "deck.cir" and "not a folder" in error["cause"]

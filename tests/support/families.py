@@ -352,7 +352,20 @@ DERIVE_OPTIONS = [
 def option_case(rng: random.Random, index: int) -> Case:
     """A netlist that works, under hostile options of every command."""
     text = text_of(rng.choice(GOOD))
-    pick = rng.randrange(5)
+    pick = rng.randrange(6)
+    if pick == 5:  # the environment: a library folder and the memory limit
+        name, value, why = rng.choice([
+            ("SYMBIAS_LIBRARY", "nodir", "library folder missing"), ("SYMBIAS_LIBRARY", "deck.cir", "not a folder"),
+            ("SYMBIAS_LIBRARY", "badlib", "broken library file"), ("SYMBIAS_MEMORY_LIMIT", "bogus", "no size"),
+            ("SYMBIAS_MEMORY_LIMIT", "-5G", "no size"), ("SYMBIAS_MEMORY_LIMIT", "1M", ""),
+            ("SYMBIAS_MEMORY_LIMIT", "4G", ""), ("SYMBIAS_MEMORY_LIMIT", "off", "")])
+        argv = rng.choice([["list"], ["show", "bjt-simple-mirror", "--no-derive"], ["derive", "deck.cir"]])
+        if name == "SYMBIAS_LIBRARY" and argv[0] == "derive":
+            argv = ["derive", "bjt-simple-mirror"]
+        if value == "badlib" and argv[0] != "list":  # an identifier is read from its own file only
+            why = ""
+        files = {"deck.cir": text, "badlib/x.toml": "garbage = = 1\n"}
+        return Case(index, "options", tuple(argv), files, invalid=why, env={name: value})
     if pick == 0:
         options, why = _sweep_options(rng, text)
         argv = ["sweep", "deck.cir", *options]

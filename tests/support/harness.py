@@ -83,6 +83,8 @@ class Case:
         Files a successful run may create or replace.
     stdout : str
         ``"pipe"`` or ``"full"`` (``/dev/full``: every write fails with ENOSPC).
+    env : mapping of str to str
+        Environment variables set for the run (``SYMBIAS_LIBRARY``, ``SYMBIAS_MEMORY_LIMIT``).
     """
 
     index: int
@@ -92,6 +94,7 @@ class Case:
     invalid: str = ""
     outputs: tuple[str, ...] = ()
     stdout: str = "pipe"
+    env: Mapping[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -164,6 +167,7 @@ def _child(case: Case, folder: Path, out_path: Path, err_path: Path, entry) -> N
         for category in (DeprecationWarning, PendingDeprecationWarning, ImportWarning, ResourceWarning):
             warnings.simplefilter("ignore", category)
         signal.signal(signal.SIGINT, signal.SIG_DFL)
+        os.environ.update(case.env)
         if entry is None:
             from symbias.cli import main
 
@@ -322,7 +326,7 @@ def _known_place(case: Case, where: str) -> bool:
     """An error names a file of the case, an option, the program, the memory variable or an argument."""
     if where.startswith("--") or where.startswith("symbias") or where == "SYMBIAS_MEMORY_LIMIT":
         return True
-    names = set(case.files) | set(case.argv) | {Path(a).name for a in case.argv}
+    names = set(case.files) | set(case.argv) | {Path(a).name for a in case.argv} | set(case.env.values())
     return where in names or Path(where).name in {Path(n).name for n in names} or Path(where).exists()
 
 
