@@ -91,11 +91,11 @@ class SweepRequest:
         for value, flag in ((self.start, "--from"), (self.stop, "--to")):
             if not math.isfinite(value):
                 raise UsageError(f"the sweep range must be finite, got {value}", path=flag)
+            if self.varies_temperature and temperature_problem(value) is not None:
+                raise UsageError(temperature_problem(value), path=flag)
         if not math.isfinite(self.stop - self.start):
             raise UsageError(f"the sweep range {self.start:g} .. {self.stop:g} is wider than floating point holds",
                              path="--to")
-            if self.varies_temperature and temperature_problem(value) is not None:
-                raise UsageError(temperature_problem(value), path=flag)
 
     @property
     def varies_temperature(self) -> bool:
