@@ -39,8 +39,10 @@ beta/(beta + 2)
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from .circuit import GROUND, Circuit, Element
-from .errors import CircuitError
+from .errors import AnalysisError, CircuitError, InfiniteResultError
 from .formula import Formula
 from .linear.mna import LinearProblem, solve
 from .devices.options import SmallSignalOptions
@@ -216,16 +218,87 @@ def output_resistance(
     if where.removed:
         _check_removable(circuit, where.removed)
     reduced = circuit.without(where.removed) if where.removed else circuit
+    holder, notes = _holding_source(reduced, a, b, port)
+    if holder is not None:
+        # a node held by a voltage source has zero resistance; the designer means the node with it removed
+        reduced = reduced.without(holder)
     network = expand(reduced, options)
     for node in (a, b):
         if node != GROUND and node not in network.nodes:
-            raise CircuitError(f"node {node!r} is left unconnected once {where.removed} is removed",
+            raise CircuitError(f"node {node!r} is left unconnected once {where.removed or holder} is removed",
                                path=circuit.path)
     drive = _voltage(a, b)
     problem = LinearProblem(network, rhs=drive, observe=drive)
     label = f"Rout at {where.removed or (a if b == GROUND else a + ',' + b)}"
-    return _formula(problem, quantity="output_resistance", label=label, unit="ohm", circuit=circuit,
-                    options=options, driven="the test current at the port", backend=backend)
+    if holder is not None:
+        label += f" ({holder} removed)"
+    try:
+        formula = _formula(problem, quantity="output_resistance", label=label, unit="ohm", circuit=circuit,
+                           options=options, driven="the test current at the port", backend=backend)
+    except AnalysisError:
+        _check_port_connected(network, a, b, port)  # an open port: say so; anything else stands
+        raise
+    return replace(formula, assumptions=formula.assumptions + notes) if notes else formula
+
+
+def _holding_source(circuit: Circuit, a: str, b: str, port: str) -> tuple[str | None, tuple[str, ...]]:
+    """The independent voltage source to remove from port ``a,b``, and a note for the assumptions.
+
+    A port held by one independent source is seen with that source removed; a
+    port held by several, or by a controlled source (an ideal amplifier's
+    output), keeps them, and the note names them: its resistance is 0.
+    """
+    path = _source_path(circuit, a, b)
+    if not path:
+        return None, ()
+    if len(path) == 1 and circuit.element(path[0]).kind == "V":
+        return path[0], (f"{path[0]} removed: it held the port at a fixed voltage",)
+    return None, (f"the port is held at a fixed voltage by {', '.join(path)} (ideal sources): its resistance is 0; "
+                  "name one of them as the port to see the resistance with it removed",)
+
+
+def _source_path(circuit: Circuit, a: str, b: str) -> list[str]:
+    """Names of the voltage-fixing elements (V, E, H) on the path from ``a`` to ``b``, if there is one."""
+    links: dict[str, list[tuple[str, str]]] = {}
+    for element in circuit.elements:
+        if element.kind in ("V", "E", "H"):
+            n1, n2 = element.nodes[:2]
+            links.setdefault(n1, []).append((n2, element.name))
+            links.setdefault(n2, []).append((n1, element.name))
+    trail: dict[str, list[str]] = {a: []}
+    queue = [a]
+    while queue:  # breadth first: the sources form a forest (a loop of them is refused on reading)
+        node = queue.pop(0)
+        if node == b:
+            return trail[node]
+        for other, name in links.get(node, ()):
+            if other not in trail:
+                trail[other] = trail[node] + [name]
+                queue.append(other)
+    return []
+
+
+def _check_port_connected(network: LinearNetwork, a: str, b: str, port: str) -> None:
+    """An open port (no small-signal path between its terminals) has an infinite resistance: say why.
+
+    Raises
+    ------
+    InfiniteResultError
+        Naming the node that floats.
+    """
+    from .circuit import components
+
+    edges = []
+    for p in network.primitives:
+        # a VCCS controlled by its own terminals is a conductance (a diode-connected MOS without ro)
+        if p.kind in ("Y", "Z", "V", "E", "H") or (p.kind == "G" and set(p.nodes[:2]) == set(p.nodes[2:])):
+            edges.append((p.nodes[0], p.nodes[1]))
+    joined = components(network.nodes, edges)
+    group = next(g for g in joined if a in g)
+    if b not in group:
+        floating = a if GROUND not in group else b
+        raise InfiniteResultError(f"Rout at {port} is infinite: node {floating!r} has no small-signal path to "
+                                  f"the other terminal of the port once sources are zeroed", path=network.path)
 
 
 #: ``output_impedance`` is the same analysis; with capacitances the result depends on s.

@@ -32,6 +32,7 @@ from .expressions import ONE, Expr, as_expr
 __all__ = [
     "Element",
     "Model",
+    "SimulatorCard",
     "Circuit",
     "GROUND",
     "validate",
@@ -146,6 +147,41 @@ class Model:
 
 
 @dataclass(frozen=True)
+class SimulatorCard:
+    """A line of the top netlist file that a simulator deck writes back as written.
+
+    Parameters
+    ----------
+    kind : {"include", "lib", "model"}
+        ``.include FILE`` (or ``.inc``), ``.lib FILE SECTION`` or a ``.model`` card.
+    text : str
+        The logical line as written (continuations joined, comments removed).
+    line : int
+        Its line in the top file.
+    file : str, optional
+        include, lib: the file named, relative to the folder of the netlist.
+    section : str, optional
+        lib: the section, lower case.
+    model : Model, optional
+        model: the card as read, so a deck can tell whether the circuit still holds it unchanged.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nQ1 a a 0 QN\\n.model QN npn (BF=80 ikf=1m)\\n")
+    >>> c.simulator_cards[0].text
+    '.model QN npn (BF=80 ikf=1m)'
+    """
+
+    kind: str
+    text: str
+    line: int = 0
+    file: str | None = None
+    section: str | None = None
+    model: Model | None = None
+
+
+@dataclass(frozen=True)
 class Circuit:
     """An immutable circuit: title, elements, models, parameters, matched groups.
 
@@ -163,6 +199,9 @@ class Circuit:
         Declared matched groups (``.match NAME Q1 Q2 ...``), element keys.
     path : str or None
         File it was read from, for error messages.
+    simulator_cards : tuple of SimulatorCard
+        The top file's ``.include``/``.lib`` lines and ``.model`` cards as written, for a simulator
+        deck (:mod:`symbias.simulator.deck`); not part of the circuit's identity.
 
     Examples
     --------
@@ -178,9 +217,11 @@ class Circuit:
     params: Mapping[str, Expr] = field(default_factory=dict)
     groups: Mapping[str, tuple[str, ...]] = field(default_factory=dict)
     path: str | None = None
+    simulator_cards: tuple[SimulatorCard, ...] = field(default=(), compare=False)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "elements", tuple(self.elements))
+        object.__setattr__(self, "simulator_cards", tuple(self.simulator_cards))
         object.__setattr__(self, "models", _frozen_mapping(self.models))
         object.__setattr__(self, "params", _frozen_mapping(self.params))
         object.__setattr__(self, "groups", _frozen_mapping({k: tuple(v) for k, v in dict(self.groups).items()}))
@@ -197,7 +238,8 @@ class Circuit:
     def __reduce__(self):
         return (
             Circuit,
-            (self.title, self.elements, dict(self.models), dict(self.params), dict(self.groups), self.path),
+            (self.title, self.elements, dict(self.models), dict(self.params), dict(self.groups), self.path,
+             self.simulator_cards),
         )
 
     # -- lookups -------------------------------------------------------------

@@ -26,6 +26,7 @@ __all__ = [
     "CircuitError",
     "AnalysisError",
     "ConvergenceError",
+    "InfiniteResultError",
     "ProcessError",
     "SpecError",
     "LibraryError",
@@ -38,6 +39,7 @@ __all__ = [
     "CircuitWarning",
     "ModelWarning",
     "BiasWarning",
+    "SimulatorWarning",
 ]
 
 
@@ -90,6 +92,10 @@ class CircuitError(SymbiasError, ValueError):
 
 class AnalysisError(SymbiasError, ArithmeticError):
     """An analysis cannot be carried out (for example a singular network)."""
+
+
+class InfiniteResultError(AnalysisError):
+    """A quantity is infinite (an open port: an infinite output resistance); the reason says where."""
 
 
 class ConvergenceError(AnalysisError):
@@ -145,3 +151,7 @@ class ModelWarning(SymbiasWarning):
 
 class BiasWarning(SymbiasWarning):
     """An operating point is usable but deserves attention (several states, matched devices that differ)."""
+
+
+class SimulatorWarning(SymbiasWarning):
+    """The external simulator ran but said something worth knowing (a model parameter it ignored)."""

@@ -31,12 +31,12 @@ from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
 
-from .circuit import GROUND, Circuit, Element, Model, validate
+from .circuit import GROUND, Circuit, Element, Model, SimulatorCard, validate
 from .elements import KINDS
 from .errors import CircuitError, LimitError, NetlistError, SymbiasError
 from .expressions import ZERO, Expr, Number, Symbol, parse_value, try_parse_number
 from .limits import MAX_ELEMENTS, MAX_SUBCIRCUIT_DEPTH, temperature_problem
-from .netlist_lines import Line, logical_lines, read_text
+from .netlist_lines import Line, logical_lines, read_text, top_lines
 
 __all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
 
@@ -166,7 +166,8 @@ def _parse(text: str, path: str | None, check: bool) -> Circuit:
                                                  mapping={}, depth=0, budget=budget))
 
     circuit = Circuit(title=title, elements=tuple(elements), models=cards.models, params=cards.params,
-                      groups={g: members for g, (members, _) in cards.groups.items()}, path=path)
+                      groups={g: members for g, (members, _) in cards.groups.items()}, path=path,
+                      simulator_cards=_simulator_cards(text, path, cards.models))
     _check_groups(circuit, cards.groups)
     if check:
         validate(circuit)
@@ -267,6 +268,23 @@ def _check_groups(circuit: Circuit, groups: dict[str, tuple[tuple[str, ...], int
             if member in seen:
                 raise CircuitError(f".match {group}: {element.name} is already in group {seen[member]}", line=line)
             seen[member] = group
+
+
+def _simulator_cards(text: str, path: str | None, models: dict[str, Model]) -> tuple[SimulatorCard, ...]:
+    """The top file's ``.include``/``.lib`` lines and ``.model`` cards, as written, for a simulator deck."""
+    folder = Path(path).parent if path is not None else Path(".")
+    cards: list[SimulatorCard] = []
+    for line in top_lines(text):
+        words = line.text.split()
+        card = words[0].lower()
+        if card in (".include", ".inc") and len(words) == 2:
+            cards.append(SimulatorCard("include", line.text, line.number, file=str(folder / words[1].strip("'\""))))
+        elif card == ".lib" and len(words) == 3:
+            cards.append(SimulatorCard("lib", line.text, line.number, file=str(folder / words[1].strip("'\"")),
+                                       section=words[2].strip("'\"").lower()))
+        elif card == ".model" and len(words) > 1 and words[1].lower() in models:
+            cards.append(SimulatorCard("model", line.text, line.number, model=models[words[1].lower()]))
+    return tuple(cards)
 
 
 def _add_model(line: Line, models: dict[str, Model]) -> None:

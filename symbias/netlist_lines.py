@@ -35,7 +35,7 @@ from pathlib import Path
 from .errors import LimitError, NetlistError
 from .limits import MAX_FILE_BYTES, MAX_INCLUDE_DEPTH
 
-__all__ = ["Line", "logical_lines", "read_text"]
+__all__ = ["Line", "logical_lines", "top_lines", "read_text"]
 
 _INCLUDE_CARDS = (".include", ".inc", ".lib")
 
@@ -146,6 +146,20 @@ def logical_lines(text: str, path: str | None = None) -> tuple[str, list[Line]]:
     lines = _join(raw[1:], 2, None)
     stack = (_key(path, None),) if path is not None else ()
     return raw[0].strip(), _expand(lines, path, stack, None)
+
+
+def top_lines(text: str) -> list[Line]:
+    """The logical lines of the top file alone, its ``.include`` and ``.lib`` lines kept as written.
+
+    The simulator deck writes those lines back (:mod:`symbias.simulator.deck`).
+
+    Examples
+    --------
+    >>> [line.text for line in top_lines("t\\n.lib 'models.lib' tt\\nR1 a 0 1k\\n")]
+    [".lib 'models.lib' tt", 'R1 a 0 1k']
+    """
+    raw = text.splitlines()
+    return _join(raw[1:], 2, None) if raw else []
 
 
 def _key(path: str | None, section: str | None) -> tuple[str, str | None]:

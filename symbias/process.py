@@ -10,9 +10,11 @@ cards (the card's own parameters win).  The grammar is documented once, in
     tnom = 27                  # degC at which the parameters hold
 
     [devices.QN]               # referred to as '.model QN npn' in a netlist
-    type = "npn"               # npn | pnp | nmos | pmos
+    type = "npn"               # npn | pnp | nmos | pmos | d (diode)
     IS = 1e-16 ...             # BJT: IS BF VAF NF XTI EG XTB (BR, NR optional)
                                # MOS: VTO KP LAMBDA GAMMA PHI TCV BEX
+                               # diode: IS N XTI EG (RS, BV, IBV, CJO, ... optional)
+                               # mismatch: AVT ABETA (MOS), AIS (BJT, diode), optional
 
     [resistors.RPOLY]
     sheet = 50                 # ohm per square
@@ -57,6 +59,7 @@ __all__ = [
     "demo_process_path",
     "REQUIRED",
     "SIGNED",
+    "TYPE_ALIASES",
 ]
 
 #: Parameters every device entry of a type must give.
@@ -65,7 +68,11 @@ REQUIRED: dict[str, tuple[str, ...]] = {
     "pnp": ("IS", "BF", "VAF", "NF", "XTI", "EG", "XTB"),
     "nmos": ("VTO", "KP", "LAMBDA", "GAMMA", "PHI", "TCV", "BEX"),
     "pmos": ("VTO", "KP", "LAMBDA", "GAMMA", "PHI", "TCV", "BEX"),
+    "d": ("IS", "N", "XTI", "EG"),
 }
+
+#: Other names accepted for a device type.
+TYPE_ALIASES = {"diode": "d"}
 
 #: Parameters that may be negative (all others must be >= 0).
 SIGNED = frozenset({"VTO", "TCV", "BEX", "XTB", "TC1", "TC2", "XTI", "TNOM"})
@@ -272,6 +279,7 @@ def _device(name: str, body: dict, path: str | None, locate: "_Locator") -> Devi
     section = f"devices.{name}"
     line = locate.section(section)
     type_ = str(body.get("type", "")).lower()
+    type_ = TYPE_ALIASES.get(type_, type_)
     if type_ not in REQUIRED:
         raise ProcessError(f"[{section}] type must be one of {', '.join(REQUIRED)}, got {body.get('type')!r}",
                            path=path, line=locate.key(section, "type") or line)

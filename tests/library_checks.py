@@ -207,18 +207,21 @@ def output_current(op: dict[str, float], source: str) -> float:
 
 
 def _reference_module():
-    reference = pytest.importorskip("symbias.dc.reference", reason="needs the DC module (issue 4)")
-    if reference.simulator() is None:
+    from symbias.simulator import ngspice
+
+    if ngspice.simulator() is None:
         pytest.skip("ngspice is not on PATH")
-    return reference
+    return ngspice
 
 
 def _deck(circuit, values, guess):
-    reference = _reference_module()
+    from symbias.simulator.deck import TIGHT_OPTIONS, reference_deck
+
+    _reference_module()
     # gmin well below every conductance of interest: ngspice puts it across each junction, which the
     # hybrid-pi model omits (at 1e-12 S it alone shunts a 1e10 ohm output by 1 %)
-    options = reference.TIGHT_OPTIONS.replace("gmin=1e-12", "gmin=1e-18")
-    return reference.reference_deck(circuit, values=values, control="{control}", guess=guess, options=options)
+    options = TIGHT_OPTIONS.replace("gmin=1e-12", "gmin=1e-18")
+    return reference_deck(circuit, values=values, control="{control}", guess=guess, options=options)
 
 
 def spice_ac(circuit, values, source: str, vectors, guess=None) -> dict[str, float]:

@@ -548,6 +548,10 @@ def reference_value(
             a, b = element.nodes[0], element.nodes[1]
         else:
             a, b = _pair(circuit, port)
+            # documented convention: a node port held by one independent voltage source is seen with it removed
+            held = [e for e in circuit.elements if e.kind == "V" and {e.nodes[0], e.nodes[1]} == {a, b}]
+            if len(held) == 1:
+                removed = held[0].name
         drive = {f"v:{a}": 1.0, f"v:{b}": -1.0}  # a unit test current into a, out of b
         observe = {f"v:{a}": 1.0, f"v:{b}": -1.0}
     else:

@@ -3,7 +3,7 @@
 The reference runs in batch mode (``ngspice -b``) with tight tolerances and
 writes its vectors with ``wrdata``; the tests read that file and check that it
 has the expected rows, not only the exit status.  Models are mapped by
-:func:`symbias.dc.reference.reference_deck` (Gummel-Poon with only IS, BF,
+:func:`symbias.simulator.deck.reference_deck` (Gummel-Poon with only IS, BF,
 BR, NF, NR, VAF, XTI, EG, XTB; MOS level 1).  Limits from the DC issue:
 currents within 0.5 %, voltages within 1 mV.
 """
@@ -16,7 +16,8 @@ import numpy as np
 import pytest
 
 from symbias.dc.operating_point import operating_point
-from symbias.dc.reference import reference_deck, run_reference, simulator
+from symbias.simulator.deck import reference_deck
+from symbias.simulator.ngspice import run_reference, simulator
 from symbias.dc.sweep import sweep_source, sweep_temperature
 from symbias.netlist import read_netlist
 

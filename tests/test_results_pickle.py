@@ -25,7 +25,6 @@ from symbias.transfer_error import transfer_error
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
 MATCH = SmallSignalOptions(match=True, beta=True)
-FORMULA_PICKLING = "Formula pickling lands separately"
 
 
 # -- work done in the worker process (module level, so the pool can find it) --------------
@@ -89,7 +88,6 @@ def test_sensitivity_rows_round_trip():
 
 
 # -- objects that hold a Formula ------------------------------------------------------------------
-@pytest.mark.xfail(strict=True, reason=FORMULA_PICKLING)
 def test_approximation_round_trips_and_evaluates_in_a_worker():
     a = approximate(_wilson_rout())
     copy = pickle.loads(pickle.dumps(a))
@@ -101,7 +99,6 @@ def test_approximation_round_trips_and_evaluates_in_a_worker():
     assert error_at_worst == pytest.approx(a.error, rel=1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason=FORMULA_PICKLING)
 def test_transfer_error_and_its_causes_round_trip():
     gain = current_gain(read_netlist(EXAMPLES / "simple_mirror.cir"), "Vout", "Iref", MATCH)
     err = transfer_error(gain)

@@ -167,6 +167,8 @@ class MagnitudeModel:
         """Unit-box corners: all of them, or :data:`MAX_CORNERS` seeded ones."""
         free = self.free_factors
         k = len(self.factors)
+        if not free:  # every range is a single value: the box is one point
+            return np.full((1, k), 0.5)
         if 2 ** len(free) <= MAX_CORNERS:
             bits = np.array(list(itertools.product((0.0, 1.0), repeat=len(free)))).reshape(-1, len(free))
         else:

@@ -18,8 +18,9 @@ from typing import Any, Iterable
 
 from ..errors import UsageError
 
-__all__ = ["add_target_argument", "add_design_arguments", "temperature", "add_dc_arguments", "parse_assignments", "target_of",
-           "inputs_of", "print_renderables", "print_json"]
+__all__ = ["add_target_argument", "add_design_arguments", "temperature", "add_bias_source_arguments",
+           "add_corner_argument", "add_dc_arguments", "parse_assignments", "target_of", "inputs_of",
+           "print_renderables", "print_json"]
 
 
 def add_target_argument(parser: argparse.ArgumentParser) -> None:
@@ -35,6 +36,21 @@ def add_design_arguments(group) -> None:
                        help="temperature in degC (default 27; above -273.15, at most 1000)")
     group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
                        help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
+
+
+def add_bias_source_arguments(group) -> None:
+    """Add --models, --corner and --keep-deck: where the operating point and its small-signal values come from."""
+    group.add_argument("--models", choices=("built-in", "ngspice"), default="built-in",
+                       help="source of the bias values: symbias's own device models (default) or ngspice run on "
+                            "the netlist's own model cards (.model, .include, .lib)")
+    add_corner_argument(group, "; repeatable")
+    group.add_argument("--keep-deck", metavar="DIR", help="keep the simulator's deck and output in DIR (to inspect)")
+
+
+def add_corner_argument(group, more: str = "") -> None:
+    """Add --corner: a section of the netlist's ``.lib`` files to read instead of the one written."""
+    group.add_argument("--corner", action="append", default=[], metavar="SECTION",
+                       help=f"read this section of the netlist's .lib files (a process corner){more}")
 
 
 def add_dc_arguments(parser: argparse.ArgumentParser) -> None:
@@ -103,7 +119,9 @@ def inputs_of(args: argparse.Namespace, target):
 
     guess = parse_assignments(getattr(args, "guess", []), "--guess")
     temp = 27.0 if args.temp is None else args.temp
-    return design_inputs(target, args.process, temp, parse_assignments(args.set, "--set"), guess)
+    return design_inputs(target, args.process, temp, parse_assignments(args.set, "--set"), guess,
+                         models=getattr(args, "models", "built-in"), corners=tuple(getattr(args, "corner", ())),
+                         keep_deck=getattr(args, "keep_deck", None))
 
 
 def print_renderables(renderables: Iterable[Any]) -> None:

@@ -14,7 +14,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from .common import add_design_arguments, add_target_argument
+from .common import add_corner_argument, add_design_arguments, add_target_argument
 
 __all__ = ["register", "run"]
 
@@ -24,13 +24,17 @@ def register(subparsers) -> None:
     p = subparsers.add_parser(
         "deck",
         help="write a SPICE deck (numbers and models filled in) for the sign-off simulation",
-        description="Write a circuit as a SPICE deck: free symbols replaced by numbers, models resolved "
-        "from the process file, an operating-point control block.",
-        epilog="The deck maps models as the ngspice checks do (docs/dc.md); sign-off uses your foundry's "
-        "models and measurement.",
+        description="Write a circuit as a SPICE deck: free symbols replaced by numbers, the netlist's own "
+        "model cards and .include/.lib lines as written (process-file parameters a card leaves out added), "
+        "flattened subcircuit elements under ngspice's own names, tight tolerances, an operating-point "
+        "control block and a header saying what was assumed.",
+        epilog="Sign-off rests on your foundry's models in your simulator, and on measurement.",
     )
     add_target_argument(p)
     add_design_arguments(p)
+    add_corner_argument(p)
+    p.add_argument("--guess", action="append", default=[], metavar="NODE=VOLTS",
+                   help="starting voltage of a node, written as .nodeset (to land on one of several states)")
     p.add_argument("--analysis", choices=("op", "none"), default="op",
                    help="control block to include (default: operating point, print all)")
     p.add_argument("--output", "-o", metavar="FILE", help="write the deck to FILE instead of stdout")

@@ -15,7 +15,7 @@ import argparse
 import sys
 
 from ..errors import UsageError
-from .common import add_design_arguments, add_target_argument
+from .common import add_bias_source_arguments, add_design_arguments, add_target_argument
 
 __all__ = ["register", "run", "request_of", "output_format"]
 
@@ -56,6 +56,7 @@ def register(subparsers) -> None:
     bias.add_argument("--at-bias", action="store_true",
                       help="solve the DC operating point and evaluate each result with its gm, rpi, ro, gmb")
     add_design_arguments(bias)
+    add_bias_source_arguments(bias)
     out = p.add_argument_group("output")
     out.add_argument("--format", choices=("text", "latex", "markdown", "json", "python"), default=None,
                      help="output form (default text)")
@@ -128,6 +129,9 @@ def request_of(args: argparse.Namespace, target):
                  if value is not None and value != []]
         if given:
             raise UsageError(f"{given[0]} is used with --at-bias: add it or leave {given[0]} out", path=given[0])
+        if args.models != "built-in" or args.corner or args.keep_deck:
+            raise UsageError("--models, --corner and --keep-deck choose the bias values: add --at-bias",
+                             path="--models")
     return DeriveRequest(
         quantities=tuple(quantities),
         options=options_of(args),
@@ -166,9 +170,11 @@ def run(args: argparse.Namespace) -> int:
     if form != "text":
         check_printable(derivation)
     if form == "json":
-        from ..render.json import derivation_record
+        from ..render.json import derivation_record, write_json
 
-        print_json(derivation_record(derivation))
+        # streamed from the terms: a result of a million terms is never held as one string
+        write_json(sys.stdout, derivation_record(derivation, streamed=True))
+        sys.stdout.write("\n")
     elif form == "latex":
         from ..render.latex import derivation_latex
 

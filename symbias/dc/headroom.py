@@ -51,6 +51,8 @@ from typing import Mapping
 import sympy
 
 from ..circuit import GROUND, Circuit, Element
+from ..devices.nonlinear import HeadroomRole, device_model
+from ..elements import KINDS
 from ..errors import CircuitError
 from ..process import Process
 from .operating_point import OperatingPoint, operating_point
@@ -119,27 +121,43 @@ def _symbol(name: str) -> sympy.Symbol:
     return sympy.Symbol(name)
 
 
+def _role(element: Element) -> HeadroomRole | None:
+    model = device_model(element.kind)
+    return model.headroom if model is not None else None
+
+
+def _is_supply(element: Element) -> bool:
+    kind = KINDS[element.kind]
+    return kind.fixes_voltage and kind.value_unit == "V"
+
+
+def _is_resistor(element: Element) -> bool:
+    kind = KINDS[element.kind]
+    return kind.value_unit == "ohm" and not kind.controlled_by_source
+
+
 def _edges(circuit: Circuit, op: OperatingPoint, exclude: str):
     """(from, to, delta, numbers) with V(to) = V(from) + delta, for every relation fixed by the bias."""
     edges = []
     for element in circuit.elements:
         n = element.nodes
-        if element.kind == "V" and element.key != exclude.lower():
+        role = _role(element)
+        if _is_supply(element) and element.key != exclude.lower():
             sym = _symbol(element.name)
             value = {element.name: op.voltage(n[0]) - op.voltage(n[1])}
             edges += [(n[1], n[0], sym, value), (n[0], n[1], -sym, value)]
-        elif element.kind == "R":
+        elif _is_resistor(element):
             sym = _symbol(f"V_{element.name}")
             value = {sym.name: op.voltage(n[0]) - op.voltage(n[1])}
             edges += [(n[1], n[0], sym, value), (n[0], n[1], -sym, value)]
-        elif element.kind in ("Q", "M"):
-            # base-emitter or gate-source drop, as a magnitude symbol signed by the polarity
+        elif role is not None:
+            # control-to-low drop (base-emitter, gate-source), a magnitude symbol signed by the polarity
             dev = op.device(element.name)
-            pol = 1 if dev.type in ("npn", "nmos") else -1
-            drop = "vbe" if element.kind == "Q" else "vgs"
-            sym = _symbol(f"{drop.upper()}_{element.name}")
-            value = {sym.name: pol * dev.voltages[drop]}
-            edges += [(n[2], n[1], pol * sym, value), (n[1], n[2], -pol * sym, value)]
+            prefix, key = role.drop
+            sym = _symbol(f"{prefix}_{element.name}")
+            value = {sym.name: dev.polarity * dev.voltages[key]}
+            low, control = n[role.output[1]], n[role.control]
+            edges += [(low, control, dev.polarity * sym, value), (control, low, -dev.polarity * sym, value)]
     return edges
 
 
@@ -172,13 +190,14 @@ def _output_chain(circuit: Circuit, out: str) -> list[Element]:
     node = out
     seen = set()
     while True:
-        device = next((e for e in circuit.devices if e.nodes[0] == node and e.nodes[1] != node
+        device = next((e for e in circuit.devices if (role := _role(e)) is not None
+                       and e.nodes[role.output[0]] == node and e.nodes[role.control] != node
                        and e.key not in seen), None)
         if device is None:
             return chain
         chain.append(device)
         seen.add(device.key)
-        node = device.nodes[2]
+        node = device.nodes[_role(device).output[1]]
 
 
 def headroom(circuit: Circuit, output: str, process: Process | None = None, temperature: float = 27.0,
@@ -201,7 +220,7 @@ def headroom(circuit: Circuit, output: str, process: Process | None = None, temp
         voltage the output device's emitter or source sits at.
     """
     source = circuit.element(output)
-    if source.kind != "V":
+    if not _is_supply(source):
         raise CircuitError(f"{output}: headroom needs the voltage source on the output node", path=circuit.path,
                            line=source.line)
     out = source.nodes[0] if source.nodes[0] != GROUND else source.nodes[1]
@@ -212,8 +231,8 @@ def headroom(circuit: Circuit, output: str, process: Process | None = None, temp
     fixed, numbers = fixed_node_voltages(circuit, op, source.name)
     top = chain[0]
     dev = op.device(top.name)
-    pol = 1 if dev.type in ("npn", "nmos") else -1
-    low = top.nodes[2]
+    pol = dev.polarity
+    low = top.nodes[_role(top).output[1]]
     if low not in fixed:
         raise CircuitError(f"{top.name}: the bias network does not fix node {low!r}, so the headroom has no "
                            f"closed form", path=circuit.path, line=top.line)
@@ -238,24 +257,23 @@ def headroom(circuit: Circuit, output: str, process: Process | None = None, temp
 
 
 def _saturation(element: Element, dev) -> tuple[str, sympy.Symbol, float]:
-    if element.kind == "Q":
-        name = f"VCEsat_{element.name}"
-        return name, _symbol(name), dev.limits["vcesat"]
-    name = f"Vov_{element.name}"
-    return name, _symbol(name), dev.limits["vdsat"]
+    prefix, key = _role(element).saturation
+    name = f"{prefix}_{element.name}"
+    return name, _symbol(name), dev.limits[key]
 
 
 def _conditions(chain: list[Element], op: OperatingPoint, fixed: dict, numbers: dict, out: str):
     for element in chain:
         dev = op.device(element.name)
-        pol = 1 if dev.type in ("npn", "nmos") else -1
+        pol = dev.polarity
+        high, low = (element.nodes[i] for i in _role(element).output)
         name, symbol, value = _saturation(element, dev)
         numbers.setdefault(name, value)
-        hi = _symbol("Vout") if element.nodes[0] == out else fixed.get(element.nodes[0], _symbol(f"V_{element.nodes[0]}"))
-        lo = fixed.get(element.nodes[2], _symbol(f"V_{element.nodes[2]}"))
+        hi = _symbol("Vout") if high == out else fixed.get(high, _symbol(f"V_{high}"))
+        lo = fixed.get(low, _symbol(f"V_{low}"))
         margin = pol * (hi - lo) - symbol
-        ce = op.voltage(element.nodes[0]) - op.voltage(element.nodes[2])
-        yield element.name, margin, bool(pol * ce >= value)
+        across = op.voltage(high) - op.voltage(low)
+        yield element.name, margin, bool(pol * across >= value)
 
 
 def _ratio(value: float) -> sympy.Expr:
@@ -267,44 +285,30 @@ def _ratio(value: float) -> sympy.Expr:
 
 def _simplify(expression: sympy.Expr, circuit: Circuit, op: OperatingPoint, top: Element,
               numbers: Mapping[str, float]):
-    """Matched-device form: VBE, VCEsat, VTH + sqrt(k)*Vov (see the module docstring)."""
+    """Matched-device form (see the module docstring); each device kind gives its own hand-analysis terms."""
     ref = op.device(top.name)
-    ref_size = _size(top)
-    vov = _symbol("Vov")
+    ref_size = _role(top).size(top)
     subs: dict[sympy.Symbol, sympy.Expr] = {}
     # the matched symbols take the output device's numbers (or the first device of that kind)
     simple_values: dict[str, float] = dict(numbers)
     for symbol in sorted(expression.free_symbols, key=lambda s: s.name):
-        kind, _, device = symbol.name.partition("_")
-        if kind not in ("VBE", "VCEsat", "VGS", "Vov") or not device:
+        prefix, _, device = symbol.name.partition("_")
+        if not device or not circuit.has_element(device):
             continue
         element = circuit.element(device)
+        role = _role(element)
+        if role is None or prefix not in (role.drop[0], role.saturation[0]):
+            continue
         dev = op.device(device)
         source = ref if element.kind == top.kind else dev
-        if kind == "VBE":
-            subs[symbol] = _symbol("VBE")
-            simple_values.setdefault("VBE", abs(source.voltages["vbe"]))
-        elif kind == "VCEsat":
-            subs[symbol] = _symbol("VCEsat")
-            simple_values.setdefault("VCEsat", source.limits["vcesat"])
-        else:
-            k = _ratio((abs(dev.output_current) / abs(ref.output_current)) * (ref_size / _size(element)))
-            scaled = vov * sympy.sqrt(k)
-            subs[symbol] = (_symbol("VTH") + scaled) if kind == "VGS" else scaled
-            simple_values.setdefault("Vov", source.limits["vov"])
-            # hand analysis means the zero-bias threshold: the smallest, since the body effect only raises it
-            simple_values["VTH"] = min(simple_values.get("VTH", float("inf")), abs(dev.limits["vth"]))
+        current_ratio = abs(dev.output_current) / abs(ref.output_current) if ref.output_current else 1.0
+        ratio = _ratio(current_ratio * (ref_size / role.size(element)))
+        subs[symbol], values = role.matched(prefix, dev, source, ratio)
+        for key, value in values.items():
+            if key in role.smallest:
+                simple_values[key] = min(simple_values.get(key, float("inf")), value)
+            else:
+                simple_values.setdefault(key, value)
     simplified = sympy.simplify(expression.subs(subs))
     used = {s.name for s in simplified.free_symbols}
     return simplified, {k: v for k, v in simple_values.items() if k in used}
-
-
-def _size(element: Element) -> float:
-    """W/L times m of a MOS device (1 for a BJT: area is folded into the current ratio)."""
-    if element.kind != "M":
-        return 1.0
-    params = element.params
-    w = float(params["w"]) if "w" in params else 1.0
-    l = float(params["l"]) if "l" in params else 1.0
-    m = float(params["m"]) if "m" in params else 1.0
-    return w / l * m

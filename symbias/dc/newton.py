@@ -1,41 +1,45 @@
-"""Newton's method on the nodal equations, with gmin and source stepping as fall-backs.
+"""Newton's method on the nodal equations, batched: one call iterates K operating points at once.
 
-Second step of the DC side: :class:`~symbias.dc.system.DcSystem` ->
-:class:`Solution` (the unknown vector and the device state it was reached
-with).  Each iteration linearises every transistor at its present junction
-voltages (after limiting: the logarithmic pn-junction limiter for BJTs, a
-cap on the gate-voltage step for MOS devices), stamps the linear companion
-model and solves the linear system; it stops when no limiting was needed and
-every unknown moved by less than ``reltol * |x| + vntol`` (voltages) or
-``+ abstol`` (currents).  When plain Newton fails, a conductance from every
-node to ground is stepped down from 1 mS to zero (gmin stepping), then all
-sources are ramped up from zero (source stepping).  If all fail,
-:class:`~symbias.errors.ConvergenceError` names the node that was still
-moving and the iteration.
+Second step of the DC side: :class:`~symbias.dc.system.DcSystem` -> an
+:class:`Attempt` per sample.  Each iteration linearises every device at its
+present controlling voltages (after the junction limiting its model
+defines), stamps the linear companion models of all samples, and solves the
+``(A, n, n)`` stack of linear systems in one ``numpy.linalg.solve`` call.  A
+sample stops when no limiting was needed and every unknown moved by less
+than ``reltol * |x| + vntol`` (voltages) or ``+ abstol`` (currents); samples
+that converge (or fail: singular matrix, non-finite step) drop out of the
+active set, so the stragglers cost only their own work.  The fall-backs
+(gmin and source stepping) and the whole solve chain are in
+:mod:`symbias.dc.stepping`.
+
+Devices are reached only through the interface of
+:mod:`symbias.devices.nonlinear` (one :class:`~symbias.dc.system.DeviceBank`
+per kind); a device "state" is the array of its controlling voltages at which
+it was last linearised, one ``(A, ndev, C)`` array per bank.
 
 Examples
 --------
 >>> from symbias.netlist import parse_netlist
 >>> from symbias.dc.system import build_system
 >>> s = build_system(parse_netlist("d\\nI1 0 a 1m\\nQ1 a a 0 QN\\n.model QN npn (IS=1e-16)\\n"))
->>> round(float(solve(s).x[0]), 4)
-0.774
+>>> attempt = newton(s, s.rhs(), np.zeros((1, 1)), start_kind="on")
+>>> bool(attempt.converged[0]), round(float(attempt.x[0, 0]), 4)
+(True, 0.774)
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 
-from ..devices.bjt import BjtCurrents, bjt_currents, bjt_limit
-from ..devices.mos import MosCurrents, mos_currents, mos_limit
-from ..errors import CircuitError, ConvergenceError
+from ..devices.nonlinear import take
+from ..errors import CircuitError
 from .system import DcSystem
 
-__all__ = ["DcOptions", "DeviceState", "Solution", "solve", "newton", "initial_state", "device_voltages",
-           "evaluate", "guess_vector", "state_of", "power_up", "residual", "START_KINDS"]
+__all__ = ["DcOptions", "Attempt", "newton", "device_controls", "bank_numbers", "initial_state", "residual",
+           "guess_vector", "rows_of", "START_KINDS"]
 
 #: Named starting device states: junctions at their critical voltage ("on") or at zero ("off").
 START_KINDS = ("on", "off")
@@ -61,215 +65,359 @@ class DcOptions:
 
 
 @dataclass(frozen=True)
-class DeviceState:
-    """Junction voltages (npn/nmos frame) at which devices were last linearised."""
+class Attempt:
+    """What a batched Newton run reached, per sample (arrays of length A).
 
-    vbe: np.ndarray
-    vbc: np.ndarray
-    vgs: np.ndarray
-
-
-@dataclass(frozen=True)
-class Solution:
-    """A converged DC solution: unknown vector, device state, iterations and method used."""
-
-    x: np.ndarray
-    state: DeviceState
-    iterations: int
-    method: str
-
-
-@dataclass(frozen=True)
-class _Attempt:
-    converged: bool
-    x: np.ndarray
-    state: DeviceState
-    iterations: int
-    worst: int
-    step: float
-
-
-def device_voltages(system: DcSystem, x: np.ndarray) -> dict[str, np.ndarray]:
-    """Junction voltages of every device in its own frame (npn/nmos) for unknowns ``x``.
-
-    Keys: ``vbe``, ``vbc`` (BJT bank), ``vgs``, ``vds``, ``vbs`` (MOS bank).
+    Attributes
+    ----------
+    converged : ndarray of bool
+    x : ndarray
+        ``(A, n)`` last unknowns (the converged ones where converged).
+    state : tuple of ndarray
+        Per bank ``(A, ndev, C)``: the controls at ``x`` where converged, else
+        those of the last linearisation.
+    iterations : ndarray of int
+    worst : ndarray of int
+        Unknown that moved most (relative to its tolerance) in the last step.
+    step : ndarray
+        How far it moved (inf after a singular or non-finite step).
     """
-    xe = np.append(x, 0.0)
-    out: dict[str, np.ndarray] = {}
-    if system.bjt is not None:
-        c, b, e = system.bjt.terminals
-        pol = system.bjt.params.polarity
-        out["vbe"] = pol * (xe[b] - xe[e])
-        out["vbc"] = pol * (xe[b] - xe[c])
-    if system.mos is not None:
-        d, g, s, b = system.mos.terminals
-        pol = system.mos.params.polarity
-        out["vgs"] = pol * (xe[g] - xe[s])
-        out["vds"] = pol * (xe[d] - xe[s])
-        out["vbs"] = pol * (xe[b] - xe[s])
-    return out
+
+    converged: np.ndarray
+    x: np.ndarray
+    state: tuple[np.ndarray, ...]
+    iterations: np.ndarray
+    worst: np.ndarray
+    step: np.ndarray
 
 
-def initial_state(system: DcSystem, kind: str = "on") -> DeviceState:
-    """A starting device state: ``"on"`` puts each junction at its critical voltage and each gate one
-    volt above threshold; ``"off"`` puts every junction at 0 V.
+def rows_of(array: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """``array[index]`` along the batch axis, or ``array`` itself when it is shared (length 1).
+
+    Examples
+    --------
+    >>> rows_of(np.zeros((1, 3)), np.array([4, 7])).shape
+    (1, 3)
+    """
+    return array if array.shape[0] == 1 else array[index]
+
+
+def device_controls(system: DcSystem, x: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Controlling voltages of every bank in the device frame for unknowns ``x`` of shape ``(A, n)``."""
+    xe = np.concatenate([np.atleast_2d(x), np.zeros((np.atleast_2d(x).shape[0], 1))], axis=1)
+    return tuple(_controls(bank, xe) for bank in system.banks)
+
+
+def _controls(bank, xe: np.ndarray) -> np.ndarray:
+    return bank.sign * (xe[:, bank.plus] - xe[:, bank.minus])
+
+
+def bank_numbers(system: DcSystem, index: np.ndarray) -> tuple:
+    """The numbers of every bank for the samples at positions ``index`` of the system's batch."""
+    if system.batch == 1:
+        return tuple(bank.numbers for bank in system.banks)
+    return tuple(take(bank.numbers, index) for bank in system.banks)
+
+
+def initial_state(system: DcSystem, kind: str = "on", x: np.ndarray | None = None,
+                  index: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
+    """A starting device state: ``"on"`` puts each junction at its critical voltage (a MOS gate one volt
+    above threshold), ``"off"`` every junction at 0 V; other controls are those ``x`` gives.
 
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
     >>> from symbias.dc.system import build_system
     >>> s = build_system(parse_netlist("d\\nI1 0 a 1m\\nQ1 a a 0 QN\\n.model QN npn\\n"))
-    >>> initial_state(s, "off").vbe.tolist()
-    [0.0]
+    >>> initial_state(s, "off")[0].tolist()
+    [[[0.0, 0.0]]]
     """
-    nb = system.bjt.size if system.bjt is not None else 0
-    nm = system.mos.size if system.mos is not None else 0
-    if kind == "off" or (nb == 0 and nm == 0):
-        return DeviceState(np.zeros(nb), np.zeros(nb), np.zeros(nm))
-    vbe = system.bjt.params.vcrit() if nb else np.zeros(0)
-    vgs = system.mos.params.vto + 1.0 if nm else np.zeros(0)
-    return DeviceState(np.asarray(vbe, dtype=float), np.zeros(nb), np.asarray(vgs, dtype=float))
+    x = np.zeros((1, system.size)) if x is None else np.atleast_2d(x)
+    index = np.arange(x.shape[0]) if index is None else index
+    raw = device_controls(system, x)
+    return tuple(bank.model.start(numbers, kind, r)
+                 for bank, numbers, r in zip(system.banks, bank_numbers(system, index), raw))
 
 
-def evaluate(system: DcSystem, volts: Mapping[str, np.ndarray]) -> tuple[BjtCurrents | None, MosCurrents | None]:
-    """Device currents and derivatives at given junction voltages (device frames)."""
-    bjt = bjt_currents(volts["vbe"], volts["vbc"], system.bjt.params) if system.bjt is not None else None
-    mos = (mos_currents(volts["vgs"], volts["vds"], volts["vbs"], system.mos.params)
-           if system.mos is not None else None)
-    return bjt, mos
+def _floor(system: DcSystem, options: DcOptions) -> np.ndarray:
+    floor = np.full(system.size, options.abstol)
+    floor[:system.node_count] = options.vntol
+    return floor
+
+
+#: Multiply-adds per matrix product below which OpenBLAS stays on one thread (its default threshold):
+#: the products here are tiny per sample, gain nothing from threads and, on a busy machine, lose much.
+_BLOCK_WORK = 1 << 18
+
+
+def _product(values: np.ndarray, scatter: np.ndarray) -> np.ndarray:
+    """``values @ scatter`` in row blocks small enough for single-threaded BLAS."""
+    rows = max(1, _BLOCK_WORK // max(1, scatter.size))
+    if values.shape[0] <= rows:
+        return values @ scatter
+    out = np.empty((values.shape[0], scatter.shape[1]))
+    for start in range(0, values.shape[0], rows):
+        np.matmul(values[start:start + rows], scatter, out=out[start:start + rows])
+    return out
+
+
+def _assemble(system: DcSystem, matrix: np.ndarray, numbers: tuple, rhs: np.ndarray, volts: Sequence[np.ndarray],
+              gshunt: np.ndarray | None, count: int) -> tuple[np.ndarray, np.ndarray]:
+    """The linearised nodal equations ``a x = b`` of ``count`` samples at device controls ``volts``."""
+    n = system.size
+    a = np.array(np.broadcast_to(matrix, (count, n, n)))
+    b = np.array(np.broadcast_to(rhs, (count, n)))
+    layout = system.layout
+    if volts and layout.matrix_targets.size:
+        jacobians, currents = [], []
+        for bank, own, v in zip(system.banks, numbers, volts):
+            current, jacobian = bank.model.evaluate(own, v)  # current terminals only
+            jacobians.append(jacobian.reshape(count, -1))
+            linear = current.copy()
+            for c in range(v.shape[-1]):  # minus the Jacobian times the controls, one control at a time
+                linear -= jacobian[..., c] * v[..., None, c]
+            currents.append(linear.reshape(count, -1))
+        flat = jacobians[0] if len(jacobians) == 1 else np.concatenate(jacobians, axis=1)
+        a.reshape(count, -1)[:, layout.matrix_targets] += _product(flat, layout.matrix_scatter)
+        flat = currents[0] if len(currents) == 1 else np.concatenate(currents, axis=1)
+        b[:, layout.rhs_targets] += _product(flat, layout.rhs_scatter)
+    if gshunt is not None:
+        diagonal = np.arange(system.node_count)
+        a[:, diagonal, diagonal] += gshunt[:, None]
+    return a, b
+
+
+#: Batches at least this large are solved by elimination across the batch (one pivot order for every
+#: sample, checked sample by sample); smaller ones, and samples the shared order does not suit, by LAPACK.
+_SHARED_MIN_BATCH = 64
+#: A shared pivot is accepted for a sample when it is at least this fraction of the largest entry below
+#: it in its column (threshold pivoting, as sparse LU codes do).
+_PIVOT_THRESHOLD = 0.1
+
+
+def _linear_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Solve the stack ``a x = b``; a singular matrix fails its own sample only."""
+    count, n = b.shape
+    if count < _SHARED_MIN_BATCH or n == 0:
+        return _lapack_solve(a, b)
+    x, ok = _shared_pivot_solve(a, b)
+    if not ok.all():
+        redo = np.flatnonzero(~ok)
+        x[redo], ok[redo] = _lapack_solve(a[redo], b[redo])
+    return x, ok
+
+
+def _lapack_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    try:
+        return np.linalg.solve(a, b[..., None])[..., 0], np.ones(b.shape[0], dtype=bool)
+    except np.linalg.LinAlgError:
+        x = np.full_like(b, np.nan)
+        ok = np.zeros(b.shape[0], dtype=bool)
+        for i in range(b.shape[0]):
+            try:
+                x[i] = np.linalg.solve(a[i], b[i])
+                ok[i] = True
+            except np.linalg.LinAlgError:
+                ok[i] = False  # recorded as a failed sample by the caller
+        return x, ok
+
+
+def _pivot_order(m: np.ndarray) -> list[int]:
+    """Row order partial pivoting gives one matrix."""
+    m = m.copy()
+    order = list(range(m.shape[0]))
+    for k in range(m.shape[0]):
+        p = k + int(np.argmax(np.abs(m[k:, k])))
+        m[[k, p]] = m[[p, k]]
+        order[k], order[p] = order[p], order[k]
+        if m[k, k] != 0:
+            m[k + 1:, k:] -= np.outer(m[k + 1:, k] / m[k, k], m[k, k:])
+    return order
+
+
+def _shared_pivot_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Gaussian elimination of every sample at once, rows in the pivot order of the first sample.
+
+    The batch is laid out sample-last, so each step is a handful of operations
+    on contiguous vectors (four to five times faster than LAPACK matrix by
+    matrix for the small systems of bias circuits); ``ok`` is false where a
+    pivot falls below :data:`_PIVOT_THRESHOLD` of its column or the result is
+    not finite.
+    """
+    count, n = b.shape
+    order = _pivot_order(a[0])
+    m = np.ascontiguousarray(a[:, order, :].transpose(1, 2, 0))  # (n, n, count)
+    y = np.ascontiguousarray(b[:, order].T)  # (n, count)
+    ok = np.ones(count, dtype=bool)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        for k in range(n):
+            pivot = m[k, k]
+            ok &= np.abs(pivot) >= _PIVOT_THRESHOLD * np.max(np.abs(m[k:, k]), axis=0)
+            inverse = 1.0 / pivot
+            for i in range(k + 1, n):
+                factor = m[i, k] * inverse
+                m[i, k + 1:] -= factor * m[k, k + 1:]
+                y[i] -= factor * y[k]
+        x = np.empty_like(y)
+        for k in range(n - 1, -1, -1):
+            total = y[k].copy()
+            for j in range(k + 1, n):
+                total -= m[k, j] * x[j]
+            x[k] = total / m[k, k]
+    x = x.T.copy()
+    return x, ok & np.all(np.isfinite(x), axis=1)
+
+
+class _Record:
+    """Per-sample results of one Newton run, filled as samples finish."""
+
+    def __init__(self, system: DcSystem, x: np.ndarray, max_iterations: int):
+        count = x.shape[0]
+        self.x = x.copy()
+        self.converged = np.zeros(count, dtype=bool)
+        self.iterations = np.full(count, max_iterations)
+        self.worst = np.zeros(count, dtype=int)
+        self.step = np.full(count, np.inf)
+        self.state = [np.zeros((count, bank.size, len(bank.model.controls))) for bank in system.banks]
+
+    def finish(self, where: np.ndarray, x, state, iterations, worst, step, converged: bool) -> None:
+        self.x[where] = x
+        self.converged[where] = converged
+        self.iterations[where] = iterations
+        self.worst[where] = worst
+        self.step[where] = step
+        for target, value in zip(self.state, state):
+            target[where] = value
+
+    def attempt(self) -> Attempt:
+        return Attempt(self.converged, self.x, tuple(self.state), self.iterations, self.worst, self.step)
+
+
+def newton(system: DcSystem, rhs: np.ndarray, x: np.ndarray, state: Sequence[np.ndarray] | None = None, *,
+           start_kind: str | None = None, fresh: np.ndarray | None = None, index: np.ndarray | None = None,
+           gshunt=None, max_iterations: int = 100, options: DcOptions = DcOptions()) -> Attempt:
+    """Run Newton iterations from ``x`` (``(A, n)``) for A samples at once.
+
+    Parameters
+    ----------
+    rhs : ndarray
+        ``(A, n)`` or ``(1, n)`` right-hand sides.
+    state : tuple of ndarray, optional
+        Device controls for the first linearisation (default: those ``x`` gives).
+    start_kind : {"on", "off"}, optional
+        Take the first linearisation from the model's starting state instead
+        (for the samples where ``fresh`` is true, default all).
+    index : ndarray, optional
+        Positions of the samples in the system's batch (default ``arange(A)``).
+    gshunt : float or ndarray, optional
+        Conductance from every node to ground (gmin stepping), per sample.
+    """
+    count, n = x.shape
+    index = np.arange(count) if index is None else np.asarray(index)
+    record = _Record(system, x, max_iterations)
+    shunt = None if gshunt is None else np.broadcast_to(np.asarray(gshunt, dtype=float), (count,)).copy()
+    active = np.arange(count)
+    xe = np.concatenate([x, np.zeros((count, 1))], axis=1)
+    matrix, numbers = rows_of(system.matrix, index), bank_numbers(system, index)
+    rows = rhs
+    previous = _first_state(system, numbers, xe, state, start_kind, fresh)
+    floor = _floor(system, options)
+    worst = np.zeros(count, dtype=int)
+    step = np.zeros(count)
+    for iteration in range(1, max_iterations + 1):
+        volts, limited = _linearisation(system, numbers, xe, previous, iteration)
+        a, b = _assemble(system, matrix, numbers, rows, volts, shunt, len(active))
+        x_new, ok = _linear_solve(a, b)
+        x_old = xe[:, :n]
+        ok, new_worst, step, small = _measure(x_new, x_old, ok, floor, options)
+        done = ok & (iteration > 1) & ~limited & small
+        failed = ~ok
+        if failed.any():
+            record.finish(active[failed], x_old[failed], [v[failed] for v in volts], iteration, worst[failed],
+                          np.inf, False)
+        if done.any():
+            settled = np.concatenate([x_new[done], np.zeros((int(done.sum()), 1))], axis=1)
+            record.finish(active[done], x_new[done], [_controls(bank, settled) for bank in system.banks], iteration,
+                          new_worst[done], step[done], True)
+        xe[:, :n] = np.where(ok[:, None], x_new, x_old)
+        previous, worst = volts, new_worst
+        keep = ~(done | failed)
+        if not keep.all():
+            active, xe, worst, step = active[keep], xe[keep], worst[keep], step[keep]
+            previous = [p[keep] for p in previous]
+            rows = rows_of(rows, keep)
+            shunt = None if shunt is None else shunt[keep]
+            matrix, numbers = rows_of(system.matrix, index[active]), bank_numbers(system, index[active])
+        if not active.size:
+            break
+    if active.size:
+        record.finish(active, xe[:, :n], previous, max_iterations, worst, step, False)
+    return record.attempt()
+
+
+def _first_state(system: DcSystem, numbers: tuple, xe: np.ndarray, state, start_kind: str | None,
+                 fresh: np.ndarray | None):
+    """Device controls for the first linearisation: given, a starting kind's, or None (those ``xe`` gives)."""
+    previous = None if state is None else [np.asarray(s, dtype=float) for s in state]
+    if start_kind is None:
+        return previous
+    raw = [_controls(bank, xe) for bank in system.banks]
+    started = [bank.model.start(num, start_kind, r) for bank, num, r in zip(system.banks, numbers, raw)]
+    return started if fresh is None else [np.where(fresh[:, None, None], s, r) for s, r in zip(started, raw)]
+
+
+def _linearisation(system: DcSystem, numbers: tuple, xe: np.ndarray, previous, iteration: int):
+    """Controls to linearise at (limited against the previous ones) and which samples were limited."""
+    raw = [_controls(bank, xe) for bank in system.banks]
+    if iteration == 1 and previous is not None:
+        volts = previous
+    elif previous is None:
+        volts = raw
+    else:
+        volts = [bank.model.limit(num, r, p) for bank, num, r, p in zip(system.banks, numbers, raw, previous)]
+    limited = np.zeros(xe.shape[0], dtype=bool)
+    for v, r in zip(volts, raw):
+        if v is not r:
+            limited |= (np.abs(v - r) > 1e-15).reshape(xe.shape[0], -1).any(axis=1)
+    return volts, limited
+
+
+def _measure(x_new: np.ndarray, x_old: np.ndarray, ok: np.ndarray, floor: np.ndarray, options: DcOptions):
+    """Finite steps, the unknown that moved most against its tolerance, how far, and whether all moved little."""
+    count, n = x_new.shape
+    ok = ok & np.all(np.isfinite(x_new), axis=1)
+    if not n:
+        return ok, np.zeros(count, dtype=int), np.zeros(count), np.ones(count, dtype=bool)
+    with np.errstate(invalid="ignore", over="ignore"):  # a non-finite step fails its sample
+        dx = np.abs(x_new - x_old)
+        ratio = dx / (options.reltol * np.maximum(np.abs(x_new), np.abs(x_old)) + floor)
+    worst = np.argmax(ratio, axis=1)
+    picked = np.arange(count)
+    return ok, worst, dx[picked, worst], ratio[picked, worst] <= 1.0
 
 
 def residual(system: DcSystem, x: np.ndarray, rhs: np.ndarray | None = None) -> np.ndarray:
     """Nodal-equation residual at ``x``: net current leaving each node (A), then each branch equation (V).
 
     Zero at an exact solution; computed from the device models directly,
-    without limiting or linearisation.
+    without limiting or linearisation.  ``x`` may be one vector ``(n,)`` or a
+    stack ``(A, n)`` (the result has the same shape).
     """
-    rhs = system.rhs() if rhs is None else rhs
-    volts = device_voltages(system, x)
-    xe = np.append(x, 0.0)
-    out = system.matrix @ xe - rhs
-    bjt, mos = evaluate(system, volts)
-    if bjt is not None:
-        c, b, e = system.bjt.terminals
-        pol = system.bjt.params.polarity
-        np.add.at(out, c, pol * bjt.ic)
-        np.add.at(out, b, pol * bjt.ib)
-        np.add.at(out, e, -pol * (bjt.ic + bjt.ib))
-    if mos is not None:
-        d, _, s, _ = system.mos.terminals
-        pol = system.mos.params.polarity
-        np.add.at(out, d, pol * mos.id)
-        np.add.at(out, s, -pol * mos.id)
-    return out[:-1]
-
-
-def _limit(system: DcSystem, raw: dict[str, np.ndarray], state: DeviceState | None) -> dict[str, np.ndarray]:
-    if state is None:
-        return raw
-    out = dict(raw)
-    if system.bjt is not None:
-        out["vbe"] = bjt_limit(raw["vbe"], state.vbe, system.bjt.params)
-        out["vbc"] = bjt_limit(raw["vbc"], state.vbc, system.bjt.params, reverse=True)
-    if system.mos is not None:
-        out["vgs"] = mos_limit(raw["vgs"], state.vgs)
-    return out
-
-
-def _stamp(system: DcSystem, volts: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Companion-model stamps: (rows, cols, values) for the matrix and (rows, values) for the rhs."""
-    rows: list[np.ndarray] = []
-    cols: list[np.ndarray] = []
-    vals: list[np.ndarray] = []
-    rhs_rows: list[np.ndarray] = []
-    rhs_vals: list[np.ndarray] = []
-    bjt, mos = evaluate(system, volts)
-    if bjt is not None:
-        c, b, e = system.bjt.terminals
-        pol = system.bjt.params.polarity
-        vbe, vbc = volts["vbe"], volts["vbc"]
-        ie = -(bjt.ic + bjt.ib)
-        terms = (
-            (c, bjt.ic, bjt.dic_dvbe, bjt.dic_dvbc),
-            (b, bjt.ib, bjt.dib_dvbe, bjt.dib_dvbc),
-            (e, ie, -(bjt.dic_dvbe + bjt.dib_dvbe), -(bjt.dic_dvbc + bjt.dib_dvbc)),
-        )
-        for row, current, g_be, g_bc in terms:
-            rows += [row, row, row, row]
-            cols += [b, e, b, c]
-            vals += [g_be, -g_be, g_bc, -g_bc]
-            rhs_rows.append(row)
-            rhs_vals.append(-pol * (current - g_be * vbe - g_bc * vbc))
-    if mos is not None:
-        d, g, s, bb = system.mos.terminals
-        pol = system.mos.params.polarity
-        gm, gds, gmb = mos.did_dvgs, mos.did_dvds, mos.did_dvbs
-        gs_ = gm + gds + gmb
-        for row, sign in ((d, 1.0), (s, -1.0)):
-            rows += [row, row, row, row]
-            cols += [g, d, bb, s]
-            vals += [sign * gm, sign * gds, sign * gmb, -sign * gs_]
-            rhs_rows.append(row)
-            eq = mos.id - gm * volts["vgs"] - gds * volts["vds"] - gmb * volts["vbs"]
-            rhs_vals.append(-sign * pol * eq)
-    if not rows:
-        empty_i, empty_f = np.zeros(0, dtype=int), np.zeros(0)
-        return (empty_i, empty_i, empty_f), (empty_i, empty_f)
-    return (np.concatenate(rows), np.concatenate(cols), np.concatenate(vals)), (
-        np.concatenate(rhs_rows), np.concatenate(rhs_vals))
-
-
-def _tolerances(system: DcSystem, x_new: np.ndarray, x_old: np.ndarray, options: DcOptions) -> np.ndarray:
-    n_nodes = len(system.node_index) - 1
-    floor = np.full(system.size, options.abstol)
-    floor[:n_nodes] = options.vntol
-    return options.reltol * np.maximum(np.abs(x_new), np.abs(x_old)) + floor
-
-
-def state_of(system: DcSystem, volts: dict[str, np.ndarray]) -> DeviceState:
-    """The device state made of given junction voltages (keys of :func:`device_voltages`)."""
-    empty = np.zeros(0)
-    return DeviceState(volts.get("vbe", empty), volts.get("vbc", empty), volts.get("vgs", empty))
-
-
-def newton(system: DcSystem, rhs: np.ndarray, x: np.ndarray, state: DeviceState | None, *,
-           gshunt: float = 0.0, max_iterations: int = 100, options: DcOptions = DcOptions()) -> _Attempt:
-    """Run Newton iterations from ``x``; the first linearisation uses ``state`` when given."""
-    n = system.size
-    base = system.matrix.copy()
-    if gshunt:
-        n_nodes = len(system.node_index) - 1
-        base[np.arange(n_nodes), np.arange(n_nodes)] += gshunt
-    previous = state
-    worst, step = 0, np.inf
-    for iteration in range(1, max_iterations + 1):
-        raw = device_voltages(system, x)
-        if iteration == 1 and state is not None:
-            volts = {**raw, "vbe": state.vbe, "vbc": state.vbc, "vgs": state.vgs} if raw else raw
-        else:
-            volts = _limit(system, raw, previous)
-        limited = any(volts[k] is not raw[k] and bool(np.any(np.abs(volts[k] - raw[k]) > 1e-15))
-                      for k in ("vbe", "vbc", "vgs") if k in raw)
-        (r, c, v), (rr, rv) = _stamp(system, volts)
-        a = base.copy()
-        b = rhs.copy()
-        np.add.at(a, (r, c), v)
-        np.add.at(b, rr, rv)
-        try:
-            x_new = np.linalg.solve(a[:n, :n], b[:n])
-        except np.linalg.LinAlgError:
-            return _Attempt(False, x, state_of(system, volts), iteration, worst, np.inf)
-        if not np.all(np.isfinite(x_new)):
-            return _Attempt(False, x, state_of(system, volts), iteration, worst, np.inf)
-        dx = np.abs(x_new - x)
-        ratio = dx / _tolerances(system, x_new, x, options)
-        worst = int(np.argmax(ratio)) if n else 0
-        step = float(dx[worst]) if n else 0.0
-        previous = state_of(system, volts)
-        x = x_new
-        if iteration > 1 and not limited and (n == 0 or ratio[worst] <= 1.0):
-            return _Attempt(True, x, state_of(system, device_voltages(system, x)), iteration, worst, step)
-    return _Attempt(False, x, previous, max_iterations, worst, step)
+    single = np.ndim(x) == 1
+    x2 = np.atleast_2d(np.asarray(x, dtype=float))
+    count, n = x2.shape
+    rhs = system.rhs() if rhs is None else np.atleast_2d(rhs)
+    out = np.concatenate([np.einsum("bij,aj->ai", system.matrix, x2) if system.matrix.shape[0] == 1
+                          else np.einsum("aij,aj->ai", system.matrix, x2), np.zeros((count, 1))], axis=1)
+    out[:, :n] -= rhs
+    xe = np.concatenate([x2, np.zeros((count, 1))], axis=1)
+    index = np.arange(count)
+    for bank, numbers in zip(system.banks, bank_numbers(system, index)):
+        current, _ = bank.model.evaluate(numbers, _controls(bank, xe))
+        signed = bank.polarity[:, None] * current  # (A, ndev, R)
+        for r, t in enumerate(bank.model.current_terminals):
+            np.add.at(out, (slice(None), bank.terminals[:, t]), signed[:, :, r])
+    return out[0, :n] if single else out[:, :n]
 
 
 def guess_vector(system: DcSystem, guess: Mapping[str, float] | None) -> np.ndarray:
@@ -287,114 +435,3 @@ def guess_vector(system: DcSystem, guess: Mapping[str, float] | None) -> np.ndar
             raise CircuitError(f"guess for unknown node {node!r}", path=system.circuit.path)
         x[index] = float(value)
     return x
-
-
-def solve(system: DcSystem, *, overrides: Mapping[str, float] | None = None, start: Solution | None = None,
-          start_kind: str | None = None, guess: Mapping[str, float] | None = None,
-          options: DcOptions = DcOptions()) -> Solution:
-    """Find a DC solution of ``system`` (sources set by ``overrides`` where given).
-
-    Tries Newton from ``start`` (a previous solution: warm start) if given,
-    then from scratch (node voltages from ``guess``, zero elsewhere; device
-    state ``start_kind``, by default the junction voltages the guess implies
-    when there is one, else ``"on"``), then gmin stepping, then source
-    stepping.
-
-    Raises
-    ------
-    ConvergenceError
-        Naming the node (or branch) still moving and the iteration reached.
-    """
-    rhs = system.rhs(1.0, overrides)
-    zero = guess_vector(system, guess)
-    if start_kind is None:
-        start_kind = "guess" if guess else "on"
-    first: _Attempt | None = None
-    if start is not None:
-        attempt = newton(system, rhs, start.x, start.state, max_iterations=options.max_iterations, options=options)
-        if attempt.converged:
-            return Solution(attempt.x, attempt.state, attempt.iterations, "newton (warm start)")
-        first = attempt
-    state = state_of(system, device_voltages(system, zero)) if start_kind == "guess" else initial_state(
-        system, start_kind)
-    attempt = newton(system, rhs, zero, state, max_iterations=options.max_iterations, options=options)
-    if attempt.converged:
-        return Solution(attempt.x, attempt.state, attempt.iterations, "newton")
-    first = first or attempt
-    for method in (_gmin_stepping, _source_stepping):
-        found = method(system, rhs, "off" if start_kind == "off" else "on", options)
-        if found is not None:
-            return found
-    raise _convergence_error(system, first)
-
-
-def _gmin_stepping(system: DcSystem, rhs: np.ndarray, start_kind: str, options: DcOptions) -> Solution | None:
-    x, state = np.zeros(system.size), initial_state(system, start_kind)
-    total = 0
-    gshunt = options.gmin_start
-    factor = 10.0
-    while True:
-        attempt = newton(system, rhs, x, state, gshunt=gshunt, max_iterations=options.step_iterations,
-                         options=options)
-        total += attempt.iterations
-        if attempt.converged:
-            x, state = attempt.x, attempt.state
-            if gshunt == 0.0:
-                return Solution(x, state, total, "gmin stepping")
-            gshunt = gshunt / factor if gshunt / factor >= 1e-13 else 0.0
-            continue
-        if gshunt == options.gmin_start or factor < 1.01:
-            return None
-        # back off: take a smaller step down from the last converged shunt
-        last = gshunt * factor if gshunt else 1e-13
-        factor = np.sqrt(factor)
-        gshunt = last / factor
-
-
-def _source_stepping(system: DcSystem, rhs: np.ndarray, start_kind: str, options: DcOptions) -> Solution | None:
-    x, state = np.zeros(system.size), initial_state(system, "off")
-    scale, step, total = 0.0, 0.1, 0
-    while scale < 1.0:
-        target = min(1.0, scale + step)
-        attempt = newton(system, rhs * target, x, state, max_iterations=options.step_iterations, options=options)
-        total += attempt.iterations
-        if attempt.converged:
-            x, state, scale = attempt.x, attempt.state, target
-            step = min(step * 2.0, 0.25)
-        else:
-            step /= 2.0
-            if step < options.source_min_step:
-                return None
-    return Solution(x, state, total, "source stepping")
-
-
-def power_up(system: DcSystem, options: DcOptions = DcOptions()) -> Solution:
-    """Ramp every source up from zero with all devices off: the path a circuit takes at power-up.
-
-    Raises
-    ------
-    ConvergenceError
-        When the ramp cannot continue.
-    """
-    found = _source_stepping(system, system.rhs(), "off", options)
-    if found is None:
-        raise ConvergenceError("source stepping from zero did not converge", path=system.circuit.path)
-    return found
-
-
-def _convergence_error(system: DcSystem, attempt: _Attempt) -> ConvergenceError:
-    name = system.unknowns[attempt.worst] if system.size else "?"
-    n_nodes = len(system.node_index) - 1
-    what = f"node {name!r}" if attempt.worst < n_nodes else f"branch current {name}"
-    line = None
-    bare = name[2:-1].lower() if name.startswith("I(") else name
-    for element in system.circuit.elements:
-        if (attempt.worst < n_nodes and name in element.nodes) or element.key == bare:
-            line = element.line
-            break
-    return ConvergenceError(
-        f"no DC operating point: Newton, gmin stepping and source stepping failed; {what} was still moving "
-        f"by {attempt.step:.3g} at iteration {attempt.iterations}",
-        path=system.circuit.path,
-        line=line,
-    )

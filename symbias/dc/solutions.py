@@ -11,7 +11,7 @@ distinct converged solution.
 
 A state is *zero-current* when the total transistor current is below
 :data:`ZERO_FRACTION` of that of the state carrying the most (or below
-:data:`~symbias.devices.bjt.ION_MIN` per device).
+:data:`~symbias.devices.nonlinear.ION_MIN` per device).
 
 Leakage: with every device off, reverse-biased junctions (and the GMIN
 shunts simulators add) still pass picoamperes, and a MOS device conducts a
@@ -53,12 +53,12 @@ from typing import Mapping
 import numpy as np
 
 from ..circuit import Circuit
-from ..devices.bjt import ION_MIN
+from ..devices.nonlinear import ION_MIN
 from ..errors import AnalysisError, SymbiasError
 from ..process import Process
-from .newton import (DcOptions, Solution, device_voltages, initial_state, newton, power_up, residual, solve,
-                     state_of)
+from .newton import DcOptions, initial_state, newton, residual
 from .operating_point import OperatingPoint, report
+from .stepping import Solution, power_up, solve
 from .system import DcSystem, build_system
 
 __all__ = ["DcState", "Solutions", "find_solutions", "off_voltages", "ZERO_FRACTION", "LEAKAGE_LIMIT"]
@@ -136,13 +136,15 @@ class Solutions:
                 "states": [s.to_dict() for s in self.states]}
 
 
-def off_voltages(circuit: Circuit, values: Mapping[str, float] | None = None) -> dict[str, float]:
+def off_voltages(circuit: Circuit, values: Mapping[str, float] | None = None,
+                 process: Process | None = None) -> dict[str, float]:
     """Node voltages of the all-off state: no current anywhere, every junction at 0 V.
 
     Voltage sources fix their nodes; a resistor or inductor carrying no
-    current puts both ends at the same voltage; a base sits at its emitter
-    and a gate at its source (and back).  Collectors and drains are left to
-    the other elements; nodes nothing fixes are put at 0 V.
+    current puts both ends at the same voltage; a base sits at its emitter,
+    a gate at its source, an anode at its cathode (and back) - the ``off``
+    relations each element's ``dc`` hook declares.  Collectors and drains are
+    left to the other elements; nodes nothing fixes are put at 0 V.
 
     Examples
     --------
@@ -152,49 +154,40 @@ def off_voltages(circuit: Circuit, values: Mapping[str, float] | None = None) ->
     >>> off_voltages(c)
     {'0': 0.0, 'vcc': 3.0, 'a': 3.0, 'b': 0.0}
     """
-    from .system import element_number
+    known = _propagate(build_system(circuit, process, 27.0, values))
+    return {node: known.get(node, 0.0) for node in circuit.nodes}
 
+
+def _propagate(system: DcSystem) -> dict[str, float]:
     known: dict[str, float] = {"0": 0.0}
     changed = True
     while changed:
         changed = False
-        for element in circuit.elements:
-            pairs: list[tuple[str, str, float]] = []
-            nodes = element.nodes
-            if element.kind == "V":
-                value = element_number(element, element.value, values, circuit.path, "value")
-                pairs = [(nodes[1], nodes[0], value), (nodes[0], nodes[1], -value)]
-            elif element.kind in ("R", "L"):
-                pairs = [(nodes[0], nodes[1], 0.0), (nodes[1], nodes[0], 0.0)]
-            elif element.kind == "Q":
-                pairs = [(nodes[2], nodes[1], 0.0), (nodes[1], nodes[2], 0.0)]
-            elif element.kind == "M":
-                pairs = [(nodes[2], nodes[1], 0.0), (nodes[1], nodes[2], 0.0)]
-            for source, target, offset in pairs:
-                if source in known and target not in known:
-                    known[target] = known[source] + offset
-                    changed = True
-    return {node: known.get(node, 0.0) for node in circuit.nodes}
+        for source, target, offset in system.off_relations:
+            if source in known and target not in known:
+                known[target] = known[source] + float(np.ravel(offset)[0])
+                changed = True
+    return known
 
 
 def _off_vector(system: DcSystem) -> np.ndarray:
     x = np.zeros(system.size)
-    for node, value in off_voltages(system.circuit, system.values).items():
+    for node, value in _propagate(system).items():
         if node != "0":
             x[system.node_index[node]] = value
     return x
 
 
 def _starts(system: DcSystem, random_starts: int, seed: int):
-    """(label, x0, device state or None) for each plain-Newton start."""
+    """(label, x0, starting device state or None) for each plain-Newton start."""
     n = system.size
-    n_nodes = len(system.node_index) - 1
+    n_nodes = system.node_count
     x_off = _off_vector(system)
     # node voltages up to the largest supply, and at least 2 V so a reference
     # driven only by a controlled source (no supply) is covered too
-    top = max([abs(value) for kind, value, _pattern in system.sources.values() if kind == "V"] + [2.0])
-    yield "devices on", np.zeros(n), initial_state(system, "on")
-    yield "all off", x_off, initial_state(system, "off")
+    top = max([float(np.max(np.abs(s.value))) for s in system.sources.values() if s.quantity == "voltage"] + [2.0])
+    yield "devices on", np.zeros(n), "on"
+    yield "all off", x_off, "off"
     for fraction in (0.25, 0.5, 0.75, 1.0):
         x = np.zeros(n)
         x[:n_nodes] = fraction * top
@@ -222,7 +215,7 @@ def find_solutions(circuit: Circuit, process: Process | None = None, temperature
     """
     system = build_system(circuit, process, temperature, values)
     rhs = system.rhs()
-    n_nodes = len(system.node_index) - 1
+    n_nodes = system.node_count
     found: list[tuple[Solution, list[str]]] = []
     tried = 0
 
@@ -233,13 +226,14 @@ def find_solutions(circuit: Circuit, process: Process | None = None, temperature
                 return
         found.append((solution, [label]))
 
-    for label, x0, state in _starts(system, random_starts, seed):
+    for label, x0, kind in _starts(system, random_starts, seed):
         tried += 1
-        if state is None:  # the device state the start's node voltages imply
-            state = state_of(system, device_voltages(system, x0))
-        attempt = newton(system, rhs, x0, state, max_iterations=options.max_iterations, options=options)
-        if attempt.converged:
-            keep(label, Solution(attempt.x, attempt.state, attempt.iterations, label))
+        # kind None: the device state the start's node voltages imply
+        attempt = newton(system, rhs, x0[None, :], start_kind=kind, max_iterations=options.max_iterations,
+                         options=options)
+        if attempt.converged[0]:
+            keep(label, Solution(attempt.x[0], tuple(s[0] for s in attempt.state), int(attempt.iterations[0]),
+                                 label))
     for label, kind in (("source stepping from zero", "off"), ("gmin stepping", "on")):
         tried += 1
         try:
@@ -273,18 +267,19 @@ def find_solutions(circuit: Circuit, process: Process | None = None, temperature
 def _held_by_leakage(system: DcSystem, rhs: np.ndarray) -> OperatingPoint | None:
     """The all-off state when it leaves at most :data:`LEAKAGE_LIMIT` unbalanced at every node."""
     x = _off_vector(system)
-    n_nodes = len(system.node_index) - 1
+    n_nodes = system.node_count
     # branch currents of the sources: the least-squares values for the off node voltages
     net = residual(system, x, rhs)
     if n_nodes < system.size:
-        a = system.matrix[:n_nodes, n_nodes:system.size]
+        a = system.matrix[0, :n_nodes, n_nodes:]
         currents, *_ = np.linalg.lstsq(a, -net[:n_nodes], rcond=None)
         x[n_nodes:] = currents
         net = residual(system, x, rhs)
     if np.max(np.abs(net[:n_nodes]), initial=0.0) > LEAKAGE_LIMIT:
         return None
     try:
-        return report(system, Solution(x, initial_state(system, "off"), 0, "all off (held by leakage)"))
+        state = tuple(s[0] for s in initial_state(system, "off", x))
+        return report(system, Solution(x, state, 0, "all off (held by leakage)"))
     except SymbiasError:
         return None
 

@@ -1,8 +1,9 @@
 """DC sweeps and their metrics: compliance, temperature coefficient, line sensitivity.
 
 Fourth step of the DC side: a circuit solved at many values of one source or
-of the temperature, each point warm-started from the previous one, gives a
-:class:`Sweep`; free functions turn a sweep into design metrics:
+of the temperature - all points in a few batched solves, each point
+warm-started from solved neighbours (:mod:`symbias.dc.continuation`) - gives
+a :class:`Sweep`; free functions turn a sweep into design metrics:
 
 * :func:`compliance` - for an output-voltage sweep, the output voltage where
   the current source stops being one, found two ways: where the output
@@ -36,16 +37,22 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from types import MappingProxyType
 from typing import Callable, Mapping
 
 import numpy as np
 
 from ..circuit import Circuit
-from ..errors import CircuitError, ConvergenceError, SymbiasError
+from ..devices.nonlinear import working_regions
+from ..errors import CircuitError, SymbiasError
 from ..process import Process
-from .newton import DcOptions, Solution, device_voltages, solve, state_of
+from .continuation import solve_sweep
+from .newton import DcOptions
 from .operating_point import OperatingPoint, report
+from .report import report_batch
+from .results import OperatingPoints
+from .stepping import solve
 from .system import DcSystem, build_system
 
 __all__ = [
@@ -62,8 +69,9 @@ __all__ = [
     "ACTIVE_REGIONS",
 ]
 
-#: Regions in which a device acts as a current source (BJT active, MOS saturation).
-ACTIVE_REGIONS = frozenset({"active", "saturation"})
+#: Regions in which a device acts as a current source (BJT active, MOS saturation): the union of
+#: the device models' working regions.
+ACTIVE_REGIONS = working_regions()
 
 Progress = Callable[[int, int], None]
 
@@ -90,7 +98,7 @@ def sweep_points(start: float, stop: float, points: int) -> np.ndarray:
     return np.linspace(float(start), float(stop), int(points))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Sweep:
     """A solved sweep: one operating point per swept value.
 
@@ -100,17 +108,26 @@ class Sweep:
         The swept source as written, or ``"temp"``.
     values : ndarray
         The swept values (V, A or degC).
-    points : tuple of OperatingPoint
-        One per value.
+    results : OperatingPoints
+        Every point, as arrays over the sweep.
     """
 
     variable: str
     values: np.ndarray
-    points: tuple[OperatingPoint, ...]
+    results: OperatingPoints
     circuit: Circuit = field(repr=False)
     process: Process | None = field(default=None, repr=False)
     temperature: float = 27.0
     system_values: Mapping[str, float] = field(default_factory=dict, repr=False)
+
+    @cached_property
+    def points(self) -> tuple[OperatingPoint, ...]:
+        """One :class:`OperatingPoint` per swept value (built on first use)."""
+        return self.results.points()
+
+    def point(self, i: int) -> OperatingPoint:
+        """The operating point at swept value ``i``."""
+        return self.results.point(i)
 
     def probe(self, name: str) -> np.ndarray:
         """Values of ``V(node)``, ``I(element)``, a node name or an element name along the sweep.
@@ -124,22 +141,22 @@ class Sweep:
         """
         kind, key = _parse_probe(name, self.circuit)
         if kind == "V":
-            return np.array([p.voltage(key) for p in self.points])
-        return np.array([p.current(key) for p in self.points])
+            return self.results.voltage(key).copy()
+        return self.results.current(key).copy()
 
     def regions(self, device: str) -> tuple[str, ...]:
         """Region of ``device`` at each point."""
-        return tuple(p.device(device).region for p in self.points)
+        return tuple(str(r) for r in self.results.device(device).region)
 
     def to_dict(self, outputs: tuple[str, ...] = ()) -> dict:
         """Plain-dict form for JSON: the swept values, node voltages, branch currents, regions, outputs."""
-        first = self.points[0]
+        results = self.results
         return {
             "variable": self.variable,
             "values": self.values.tolist(),
-            "node_voltages": {n: [p.node_voltages[n] for p in self.points] for n in first.node_voltages},
-            "branch_currents": {n: [p.branch_currents[n] for p in self.points] for n in first.branch_currents},
-            "regions": {d: list(self.regions(d)) for d in first.devices},
+            "node_voltages": {n: v.tolist() for n, v in results.node_voltages.items()},
+            "branch_currents": {n: v.tolist() for n, v in results.branch_currents.items()},
+            "regions": {d: list(self.regions(d)) for d in results.devices},
             "outputs": {o: self.probe(o).tolist() for o in outputs},
         }
 
@@ -157,30 +174,15 @@ def _parse_probe(name: str, circuit: Circuit) -> tuple[str, str]:
                        path=circuit.path)
 
 
-def _run(systems, overrides_of, values: np.ndarray, variable: str, circuit: Circuit, process, temperature,
-         system_values, guess, options: DcOptions, progress: Progress | None) -> Sweep:
-    points: list[OperatingPoint] = []
-    previous: Solution | None = None
-    before: Solution | None = None
-    for i, value in enumerate(values):
-        system = systems(value)
-        start = previous if before is None else _predict(system, before, previous)
-        try:
-            solution = solve(system, overrides=overrides_of(value), start=start,
-                             guess=guess if previous is None else None, options=options)
-        except ConvergenceError as err:
-            raise ConvergenceError(f"{variable} = {value:g}: {err.reason}", err.path, err.line) from None
-        points.append(report(system, solution))
-        before, previous = previous, solution
-        if progress is not None:
-            progress(i + 1, len(values))
-    return Sweep(variable, values, tuple(points), circuit, process, temperature, MappingProxyType(dict(system_values or {})))
-
-
-def _predict(system: DcSystem, before: Solution, previous: Solution) -> Solution:
-    """Linear extrapolation from the last two points of an equally spaced sweep: Newton's first guess."""
-    x = 2.0 * previous.x - before.x
-    return Solution(x, state_of(system, device_voltages(system, x)), 0, "predicted")
+def _run(system: DcSystem, grid: np.ndarray, overrides: Mapping[str, np.ndarray] | None, variable: str,
+         circuit: Circuit, process, temperature, system_values, guess, options: DcOptions,
+         progress: Progress | None) -> Sweep:
+    solution = solve_sweep(system, grid, overrides, guess=guess, options=options, progress=progress,
+                           variable=variable)
+    results = report_batch(system, solution, overrides)
+    if results.errors:
+        raise results.errors[0][1]
+    return Sweep(variable, grid, results, circuit, process, temperature, MappingProxyType(dict(system_values or {})))
 
 
 def sweep_source(circuit: Circuit, source: str, start: float, stop: float, points: int = 201, *,
@@ -189,7 +191,8 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
                  options: DcOptions = DcOptions(), progress: Progress | None = None) -> Sweep:
     """Sweep the DC value of an independent source (``Vout`` for compliance, ``VDD`` for line sensitivity).
 
-    Each point starts Newton from the previous solution.
+    Every point is solved in a few batches, each point starting from solved
+    neighbours (:mod:`symbias.dc.continuation`).
 
     Raises
     ------
@@ -202,18 +205,18 @@ def sweep_source(circuit: Circuit, source: str, start: float, stop: float, point
     system = build_system(circuit, process, temperature, values)
     system.source_value(source)
     name = circuit.element(source).name
-    return _run(lambda _: system, lambda v: {source: float(v)}, grid, name, circuit, process, temperature,
-                values, guess, options, progress)
+    return _run(system, grid, {source: grid}, name, circuit, process, temperature, values, guess, options,
+                progress)
 
 
 def sweep_temperature(circuit: Circuit, start: float, stop: float, points: int = 201, *,
                       process: Process | None = None, values: Mapping[str, float] | None = None,
                       guess: Mapping[str, float] | None = None, options: DcOptions = DcOptions(),
                       progress: Progress | None = None) -> Sweep:
-    """Sweep the temperature (degC): every model and resistor is re-evaluated at each point."""
+    """Sweep the temperature (degC): every model and resistor is evaluated at each point (one batched system)."""
     grid = sweep_points(start, stop, points)
-    return _run(lambda t: build_system(circuit, process, float(t), values), lambda _: None, grid, "temp",
-                circuit, process, float(start), values, guess, options, progress)
+    system = build_system(circuit, process, grid, values)
+    return _run(system, grid, None, "temp", circuit, process, float(start), values, guess, options, progress)
 
 
 # -- compliance --------------------------------------------------------------------------------------
@@ -317,7 +320,7 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
     def current_fails(point: OperatingPoint, v: float) -> bool:
         return (slope_line(v) - abs(_probe_point(point, probe, sweep.circuit))) / abs(iref) > fraction
 
-    reference_point = sweep.points[ref]
+    reference_point = sweep.point(ref)
 
     def region_fails(point: OperatingPoint, v: float) -> bool:
         return _changed(point, reference_point) is not None
@@ -327,10 +330,9 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
     for side, step in (("low", down), ("high", up)):
         j = _first_bad(shortfall > fraction, ref, step)
         edges[f"current_{side}"] = None if j is None else _bisect(sweep, j - step, j, current_fails, options)
-        flags = np.array([_changed(p, reference_point) is not None for p in sweep.points])
-        k = _first_bad(flags, ref, step)
+        k = _first_bad(_region_changes(sweep, reference_point), ref, step)
         edges[f"region_{side}"] = None if k is None else _bisect(sweep, k - step, k, region_fails, options)
-        edges[f"device_{side}"] = None if k is None else _changed(sweep.points[k], reference_point)
+        edges[f"device_{side}"] = None if k is None else _changed(sweep.point(k), reference_point)
     by_low, by_high = edges["current_low"], edges["current_high"]
     region_low, region_high = edges["region_low"], edges["region_high"]
     device_low, device_high = edges["device_low"], edges["device_high"]
@@ -340,9 +342,18 @@ def compliance(sweep: Sweep, output: str | None = None, *, fraction: float = 0.0
 
 def _changed(point: OperatingPoint, reference: OperatingPoint) -> str | None:
     for name, dev in reference.devices.items():
-        if dev.region in ACTIVE_REGIONS and point.devices[name].region != dev.region:
+        if dev.working and point.devices[name].region != dev.region:
             return f"{name} ({point.devices[name].region})"
     return None
+
+
+def _region_changes(sweep: Sweep, reference: OperatingPoint) -> np.ndarray:
+    """At each point: has a device that works as a current source at the reference left its region?"""
+    flags = np.zeros(len(sweep.values), dtype=bool)
+    for name, dev in reference.devices.items():
+        if dev.working:
+            flags |= sweep.results.devices[name].region != dev.region
+    return flags
 
 
 def _probe_point(point: OperatingPoint, name: str, circuit: Circuit) -> float:
@@ -353,7 +364,7 @@ def _probe_point(point: OperatingPoint, name: str, circuit: Circuit) -> float:
 def _bisect(sweep: Sweep, good: int, bad: int, fails, options: DcOptions, tol: float = 1e-5) -> float:
     """Refine by bisection, warm-starting each solve, the swept value where ``fails(point, value)`` turns true."""
     system = build_system(sweep.circuit, sweep.process, sweep.temperature, sweep.system_values)
-    start = sweep.points[good]
+    start = sweep.point(good)
     x_good, x_bad = float(sweep.values[good]), float(sweep.values[bad])
     for _ in range(40):
         if abs(x_bad - x_good) <= tol:

@@ -1,13 +1,21 @@
 """Compile a circuit into numeric nodal (MNA) equations for the DC solver.
 
 First step of the DC side: :class:`~symbias.circuit.Circuit` + process +
-temperature -> :class:`DcSystem`, a frozen bundle of numpy arrays.  The
-unknowns are the node voltages (ground excluded) followed by the branch
-currents of voltage sources, inductors (shorts at DC) and E/H sources.  Linear
+temperature (+ samples) -> :class:`DcSystem`, a frozen bundle of numpy
+arrays.  Every element is stamped by the ``dc`` hook its kind names in
+:mod:`symbias.elements`; this module only assembles what the hooks return
+(:class:`~symbias.devices.dc_context.DcStamp`).  The unknowns are the node
+voltages (ground excluded, then the internal nodes devices add) followed by
+the branch currents (voltage sources, inductors, E and H sources).  Linear
 elements go into a constant matrix; independent sources into a right-hand
 side that the solver can scale (source stepping) or override (sweeps);
-transistors into two banks (all BJTs, all MOS devices) evaluated in one
-vectorised call each.
+nonlinear devices into one :class:`DeviceBank` per device kind, evaluated in
+one vectorised call per Newton step through the interface of
+:mod:`symbias.devices.nonlinear`.
+
+Batches: when a symbol value, a sample or the temperature is an array of
+length K, the system describes K circuits at once.  Arrays that depend on
+the batch have a leading axis of length K; the others have length 1.
 
 Conventions: a branch current flows from the element's first node through
 the element to its second node (for a voltage source that is SPICE's sign:
@@ -17,43 +25,92 @@ Examples
 --------
 >>> from symbias.netlist import parse_netlist
 >>> s = build_system(parse_netlist("d\\nV1 a 0 2\\nR1 a b 1k\\nR2 b 0 1k\\n"))
->>> s.unknowns
-('a', 'b', 'I(V1)')
+>>> s.unknowns, s.matrix.shape
+(('a', 'b', 'I(V1)'), (1, 3, 3))
 """
 
 from __future__ import annotations
 
-import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from types import MappingProxyType
-from typing import Mapping
+from typing import Any, Mapping
 
 import numpy as np
 
-from ..circuit import GROUND, Circuit, Element
-from ..devices.bjt import GMIN, BjtAtTemperature, BjtModel, stack_bjts
-from ..devices.mos import MosAtTemperature, MosModel, stack_mos
+from ..circuit import GROUND, Circuit, Element, components, conducting_pairs
+from ..devices.dc_context import (Branch, DcStamp, StampContext, batch_size, element_number,
+                                  resolved_model_parameters)
+from ..devices.nonlinear import DeviceModel, stack_parameters
+from ..elements import KINDS
 from ..errors import CircuitError
 from ..process import Process
 
-__all__ = ["DcSystem", "DeviceBank", "build_system", "element_number", "resolved_model_parameters", "dc_paths"]
+__all__ = ["DcSystem", "DeviceBank", "Source", "ElementCurrent", "StampLayout", "build_system", "element_number",
+           "resolved_model_parameters", "dc_paths"]
 
-_BRANCH_KINDS = ("V", "L", "E", "H")
+
+@dataclass(frozen=True)
+class Source:
+    """An independent source: what it sets (voltage or current), value ``(B,)`` and right-hand-side pattern ``(n,)``."""
+
+    quantity: str
+    value: np.ndarray
+    pattern: np.ndarray
+
+
+@dataclass(frozen=True)
+class ElementCurrent:
+    """An element's current: ``sum(coefficient * x[index])`` (``(B, m)`` coefficients), or a source's value."""
+
+    index: np.ndarray
+    coefficient: np.ndarray
+    source: str | None = None
 
 
 @dataclass(frozen=True)
 class DeviceBank:
-    """All transistors of one kind: names, terminal indices (ground = n) and parameters.
+    """Every device of one kind: names, where they connect, and their numbers.
 
-    ``terminals`` has one row per terminal (BJT: c, b, e; MOS: d, g, s, b) and
-    one column per device.
+    Attributes
+    ----------
+    model : DeviceModel
+    names, types : tuple of str
+        Element names as written; model types.
+    lines : tuple of int
+    terminals : ndarray
+        ``(ndev, T)`` unknown index of each terminal the model is evaluated
+        at (ground maps to ``n``, one past the last unknown).
+    pins : ndarray
+        ``(ndev, P)`` unknown index of each of the element's own nodes.
+    polarity : ndarray
+        ``(ndev,)`` +1 or -1.
+    numbers : object
+        The model's numbers at temperature (arrays ``(B, ndev)``).
+    plus, minus : ndarray
+        ``(ndev, C)`` unknown index of the plus and minus terminal of each control (derived).
     """
 
+    model: DeviceModel
     names: tuple[str, ...]
-    terminals: np.ndarray
-    params: object  # BjtAtTemperature or MosAtTemperature of arrays
-    models: tuple[object, ...]  # BjtModel / MosModel per device (for reports)
+    types: tuple[str, ...]
     lines: tuple[int, ...]
+    terminals: np.ndarray
+    pins: np.ndarray
+    polarity: np.ndarray
+    numbers: Any
+    plus: np.ndarray = field(init=False, repr=False)
+    minus: np.ndarray = field(init=False, repr=False)
+    sign: np.ndarray = field(init=False, repr=False)
+
+    def __post_init__(self) -> None:
+        # derived once: (ndev, C) unknown index of each control's plus and minus terminal, polarity as a column
+        object.__setattr__(self, "plus", self.terminals[:, self.model.plus])
+        object.__setattr__(self, "minus", self.terminals[:, self.model.minus])
+        object.__setattr__(self, "sign", self.polarity[:, None])
+
+    def __reduce__(self):
+        return (DeviceBank, (self.model, self.names, self.types, self.lines, self.terminals, self.pins, self.polarity,
+                             self.numbers))
 
     @property
     def size(self) -> int:
@@ -62,353 +119,329 @@ class DeviceBank:
 
 
 @dataclass(frozen=True)
+class StampLayout:
+    """Where the companion-model entries of every bank land, precomputed once per system.
+
+    The Jacobians of all banks, each flattened to ``(A, ndev*R*C)`` and
+    concatenated, times ``matrix_scatter`` (+1 where an entry lands at a
+    control's plus terminal, -1 at its minus, summed over entries landing on
+    one position) give the additions at the flat matrix positions
+    ``matrix_targets`` (ground dropped): one small matrix product per Newton
+    step for the whole batch.  The right-hand side likewise from the
+    flattened ``(A, ndev*R)`` linearised currents, signed by minus the
+    polarity.
+    """
+
+    matrix_scatter: np.ndarray
+    matrix_targets: np.ndarray
+    rhs_scatter: np.ndarray
+    rhs_targets: np.ndarray
+
+
+def _frozen(data: Mapping) -> Mapping:
+    return MappingProxyType(dict(data))
+
+
+@dataclass(frozen=True)
 class DcSystem:
-    """Numeric nodal equations of a circuit at one temperature.
+    """Numeric nodal equations of a circuit (at one temperature, or over a batch).
 
     Attributes
     ----------
     circuit : Circuit
-        The circuit compiled.
-    temperature : float
-        degC.
+    temperature : float or ndarray
+        degC (an array of length ``batch`` for a batch over temperature).
+    batch : int
+        Number of circuits the system describes (1 without samples).
     unknowns : tuple of str
-        Node names, then ``I(<element>)`` for each branch current.
-    node_index : mapping
-        Node name -> unknown index (ground maps to ``n``, one past the end).
-    branch_index : mapping
-        Element name (lower case) -> unknown index of its branch current.
+        Node names (circuit nodes, then internal ones), then ``I(<element>)``
+        for each branch current.
+    node_count : int
+        How many unknowns are node voltages.
+    node_index, branch_index : mapping
+        Node name -> unknown index (ground maps to ``n``); element key -> index
+        of its branch current.
     matrix : ndarray
-        (n+1, n+1) constant part, ground row/column last (ignored).
+        ``(B, n, n)`` constant part of the nodal matrix.
     sources : mapping
-        Independent source name (lower case) -> (kind, value, pattern) with
-        ``pattern`` an (n+1,) vector: the right-hand side is
-        ``sum(value * pattern)``.
-    resistors : mapping
-        Resistor name (lower case) -> resistance at this temperature (ohm).
-    bjt, mos : DeviceBank or None
+        Source key (lower case) -> :class:`Source`.
+    currents : mapping
+        Element name as written -> :class:`ElementCurrent` (R, I, G, F).
+    banks : tuple of DeviceBank
+    layout : StampLayout
+    off_relations : tuple of (str, str, value)
+        ``V(to) = V(from) + value`` when nothing conducts (see
+        :func:`symbias.dc.solutions.off_voltages`).
     process : Process or None
     values : mapping
         The numbers given for free symbols.
+    samples : mapping
+        The per-batch overrides given.
     """
 
     circuit: Circuit
-    temperature: float
+    temperature: Any
+    batch: int
     unknowns: tuple[str, ...]
+    node_count: int
     node_index: Mapping[str, int]
     branch_index: Mapping[str, int]
     matrix: np.ndarray
-    sources: Mapping[str, tuple[str, float, np.ndarray]]
-    resistors: Mapping[str, float] = field(default_factory=dict)
-    bjt: DeviceBank | None = None
-    mos: DeviceBank | None = None
+    sources: Mapping[str, Source]
+    currents: Mapping[str, ElementCurrent]
+    banks: tuple[DeviceBank, ...]
+    layout: StampLayout
+    off_relations: tuple[tuple[str, str, Any], ...] = ()
     process: Process | None = None
-    values: Mapping[str, float] = field(default_factory=dict)
+    values: Mapping[str, Any] = field(default_factory=dict)
+    samples: Mapping[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        for name in ("node_index", "branch_index", "sources", "currents", "values", "samples"):
+            object.__setattr__(self, name, _frozen(getattr(self, name)))
+
+    def __reduce__(self):  # MappingProxyType does not pickle
+        items = {f.name: getattr(self, f.name) for f in fields(self)}
+        for name in ("node_index", "branch_index", "sources", "currents", "values", "samples"):
+            items[name] = dict(items[name])
+        return (_rebuild_system, (items,))
 
     @property
     def size(self) -> int:
         """Number of unknowns n."""
         return len(self.unknowns)
 
-    def rhs(self, scale: float = 1.0, overrides: Mapping[str, float] | None = None) -> np.ndarray:
-        """Right-hand side with every source scaled by ``scale``; ``overrides`` set source values.
+    def rhs(self, scale: float = 1.0, overrides: Mapping[str, Any] | None = None,
+            index: np.ndarray | None = None) -> np.ndarray:
+        """Right-hand side ``(B, n)`` with every source scaled by ``scale``; ``overrides`` set source values.
+
+        An override may be an array over the samples solved; ``index`` picks
+        those samples' rows of batched source values.
+
+        Raises
+        ------
+        CircuitError
+            For an override naming no independent source.
 
         Examples
         --------
         >>> from symbias.netlist import parse_netlist
         >>> s = build_system(parse_netlist("d\\nV1 a 0 2\\nR1 a 0 1k\\n"))
         >>> s.rhs(0.5, {"V1": 4.0}).tolist()
-        [0.0, 2.0, 0.0]
+        [[0.0, 2.0]]
         """
-        overrides = {k.lower(): v for k, v in (overrides or {}).items()}
-        b = np.zeros(self.size + 1)
-        for name, (_, value, pattern) in self.sources.items():
-            b += scale * overrides.get(name, value) * pattern
+        given = {k.lower(): v for k, v in (overrides or {}).items()}
+        for name in given:
+            self.source_value(name)
+        values = {}
+        for name, source in self.sources.items():
+            value = np.asarray(given.get(name, source.value), dtype=float).reshape(-1)
+            if name not in given and index is not None and value.size > 1:
+                value = value[index]
+            values[name] = value
+        rows = batch_size(*values.values(), what="source values", path=self.circuit.path)
+        b = np.zeros((rows, self.size))
+        for name, source in self.sources.items():
+            b += (scale * values[name].reshape(-1, 1)) * source.pattern
         return b
 
-    def with_temperature(self, temperature: float) -> "DcSystem":
-        """The same circuit compiled at another temperature (degC)."""
-        return build_system(self.circuit, self.process, temperature, self.values)
+    def with_temperature(self, temperature) -> "DcSystem":
+        """The same circuit compiled at another temperature (degC, or an array over the batch)."""
+        return build_system(self.circuit, self.process, temperature, self.values, samples=self.samples)
 
-    def source_value(self, name: str) -> float:
-        """Present value of an independent source.
+    def source_value(self, name: str):
+        """Value of an independent source (a float, or an array over the batch).
 
         Raises
         ------
         CircuitError
             If there is no independent source of that name.
         """
-        try:
-            return self.sources[name.lower()][1]
-        except KeyError:
+        source = self.sources.get(name.lower())
+        if source is None:
             known = ", ".join(sorted(self.sources)) or "none"
-            raise CircuitError(f"no independent source {name!r} (sources: {known})", path=self.circuit.path) from None
+            raise CircuitError(f"no independent source {name!r} (sources: {known})", path=self.circuit.path)
+        return float(source.value[0]) if source.value.size == 1 else source.value
 
 
-def element_number(element: Element, expr, values: Mapping[str, float] | None, path: str | None, what: str) -> float:
-    """A float for ``expr`` (an element's value or parameter), using ``values`` for free symbols.
-
-    Raises
-    ------
-    CircuitError
-        Naming the element and its line when a symbol has no value.
-
-    Examples
-    --------
-    >>> from symbias.expressions import Symbol
-    >>> e = Element("R1", "R", ("a", "0"), Symbol("RE"), line=3)
-    >>> element_number(e, e.value, {"RE": 1e3}, "x.cir", "value")
-    1000.0
-    """
-    if isinstance(expr, (int, float)):
-        return float(expr)
-    free = sorted(expr.names)
-    lookup = {k.lower(): v for k, v in (values or {}).items()}
-    missing = [s for s in free if s.lower() not in lookup]
-    if missing:
-        raise CircuitError(
-            f"{element.name}: {what} {expr} has no number for {', '.join(missing)} "
-            f"(give it in the netlist or pass values for it)",
-            path=path,
-            line=element.line,
-        )
-    try:
-        number = expr.evaluate({s: float(lookup[s.lower()]) for s in free})
-        number = float(number)
-    except (TypeError, ValueError, OverflowError, ZeroDivisionError):
-        number = math.nan
-    if not math.isfinite(number):
-        raise CircuitError(f"{element.name}: {what} {expr} is not a finite real number", path=path,
-                           line=element.line)
-    return number
+def _rebuild_system(items: dict) -> DcSystem:
+    return DcSystem(**items)
 
 
 def dc_paths(circuit: Circuit) -> None:
     """Check that every node has a DC path to ground; raise :class:`CircuitError` otherwise.
 
     Capacitors, MOS gates, current sources and the sensing side of controlled
-    sources carry no DC current, so a node reached only through them has no
-    defined DC voltage.
+    sources carry no DC current (the ``dc_pairs`` of :mod:`symbias.elements`),
+    so a node reached only through them has no defined DC voltage.
 
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
     >>> dc_paths(parse_netlist("t\\nV1 a 0 1\\nR1 a b 1k\\nC1 b c 1p\\nR2 c 0 1k\\n"))
     """
-    import networkx as nx
-
-    graph = nx.Graph()
-    graph.add_nodes_from(circuit.nodes)
-    for element in circuit.elements:
-        nodes = element.nodes
-        if element.kind in ("R", "V", "L", "E", "H"):
-            graph.add_edge(nodes[0], nodes[1])
-        elif element.kind == "Q":
-            graph.add_edge(nodes[0], nodes[1])
-            graph.add_edge(nodes[1], nodes[2])
-        elif element.kind == "M":
-            graph.add_edge(nodes[0], nodes[3])
-            graph.add_edge(nodes[2], nodes[3])
-    for component in nx.connected_components(graph):
-        if GROUND in component:
+    edges = [pair for element in circuit.elements for pair in conducting_pairs(element, dc=True)]
+    groups = components(circuit.nodes, edges)
+    for group in sorted(groups, key=lambda g: min(circuit.nodes.index(n) for n in g)):
+        if GROUND in group:
             continue
-        culprit = next((e for e in circuit.elements if any(n in component for n in e.nodes)), None)
+        culprit = next((e for e in circuit.elements if any(n in group for n in e.nodes)), None)
         raise CircuitError(
-            f"node(s) {', '.join(sorted(component))} have no DC path to ground "
+            f"node(s) {', '.join(sorted(group))} have no DC path to ground "
             f"(only capacitors, gates or current sources reach them)",
             path=circuit.path,
             line=culprit.line if culprit else None,
         )
 
 
-def resolved_model_parameters(circuit: Circuit, element: Element, process: Process | None,
-                              values: Mapping[str, float] | None) -> tuple[str, dict[str, float], float]:
-    """Model type, parameters (process entry overridden by the ``.model`` card) and TNOM (degC).
-
-    The process entry is the device of the model's name, or failing that the
-    only process device of the model's type.
-
-    Examples
-    --------
-    >>> from symbias.netlist import parse_netlist
-    >>> c = parse_netlist("t\\nV1 c 0 1\\nQ1 c c 0 QX\\n.model QX npn (BF=50)\\n")
-    >>> resolved_model_parameters(c, c.element("Q1"), None, None)
-    ('npn', {'BF': 50.0}, 27.0)
-    """
-    model = circuit.model_of(element)
-    params: dict[str, float] = {}
-    tnom = 27.0
-    if process is not None:
-        tnom = process.tnom
-        entry = process.device(model.name, model.type)
-        if entry is not None:
-            if entry.type != model.type:
-                raise CircuitError(
-                    f"{element.name}: model {model.name} is {model.type} but the process device is {entry.type}",
-                    path=circuit.path, line=model.line or element.line,
-                )
-            params.update(entry.params)
-    for key, expr in model.params.items():
-        params[key] = element_number(element, expr, values, circuit.path, f"model parameter {key}")
-    if "TNOM" in params:
-        tnom = params.pop("TNOM")
-    return model.type, params, tnom
-
-
-def _resistance(element: Element, circuit: Circuit, process: Process | None, values, temperature: float) -> float:
-    r = element_number(element, element.value, values, circuit.path, "resistance")
-    if r == 0:
-        raise CircuitError(f"{element.name}: zero resistance (use a 0 V source for a short)", path=circuit.path,
-                           line=element.line)
-    tc1 = tc2 = 0.0
-    tnom = process.tnom if process is not None else 27.0
-    if "layer" in element.params:
-        if process is None:
-            raise CircuitError(f"{element.name}: layer={element.params['layer']} needs a process file",
-                               path=circuit.path, line=element.line)
-        layer = process.resistor(str(element.params["layer"]))
-        tc1, tc2 = layer.tc1, layer.tc2
-    if "tc1" in element.params:
-        tc1 = element_number(element, element.params["tc1"], values, circuit.path, "tc1")
-    if "tc2" in element.params:
-        tc2 = element_number(element, element.params["tc2"], values, circuit.path, "tc2")
-    dt = temperature - tnom
-    return r * (1.0 + tc1 * dt + tc2 * dt * dt)
-
-
-def build_system(circuit: Circuit, process: Process | None = None, temperature: float = 27.0,
-                 values: Mapping[str, float] | None = None) -> DcSystem:
-    """Compile ``circuit`` at ``temperature`` (degC) into nodal equations.
+def build_system(circuit: Circuit, process: Process | None = None, temperature=27.0,
+                 values: Mapping[str, Any] | None = None, *, samples: Mapping[str, Any] | None = None) -> DcSystem:
+    """Compile ``circuit`` into nodal equations (at ``temperature`` degC, or over a batch).
 
     Parameters
     ----------
     circuit : Circuit
     process : Process, optional
         Device parameters; the netlist's ``.model`` cards override them.
-    temperature : float, default 27
+    temperature : float or array, default 27
     values : mapping, optional
-        Numbers for free symbols in element values (``{"RE": 1e3}``).
+        Numbers for free symbols in element values (``{"RE": 1e3}``); arrays make a batch.
+    samples : mapping, optional
+        Per-batch overrides of element values and model parameters (see
+        :mod:`symbias.devices.dc_context`).
 
     Raises
     ------
     CircuitError
-        A node without a DC path, a symbol without a number, a zero resistor.
+        A node without a DC path, a symbol without a number, a zero resistor,
+        a sample naming nothing in the circuit.
     """
     dc_paths(circuit)
-    path = circuit.path
-    nodes = [n for n in circuit.nodes if n != GROUND]
-    branches = [e for e in circuit.elements if e.kind in _BRANCH_KINDS]
-    n = len(nodes) + len(branches)
-    node_index = {node: i for i, node in enumerate(nodes)}
-    node_index[GROUND] = n
-    branch_index = {e.key: len(nodes) + i for i, e in enumerate(branches)}
-    a = np.zeros((n + 1, n + 1))
-    sources: dict[str, tuple[str, float, np.ndarray]] = {}
-    resistors: dict[str, float] = {}
-    bjts: list[tuple[Element, BjtModel, BjtAtTemperature]] = []
-    moses: list[tuple[Element, MosModel, MosAtTemperature]] = []
-    idx = node_index.__getitem__
-
-    for element in circuit.elements:
-        kind, nd = element.kind, element.nodes
-        if kind == "R":
-            r = _resistance(element, circuit, process, values, temperature)
-            resistors[element.key] = r
-            _stamp_conductance(a, idx(nd[0]), idx(nd[1]), 1.0 / r)
-        elif kind in _BRANCH_KINDS:
-            k = branch_index[element.key]
-            p, m = idx(nd[0]), idx(nd[1])
-            a[p, k] += 1.0
-            a[m, k] -= 1.0
-            a[k, p] += 1.0
-            a[k, m] -= 1.0
-            if kind == "V":
-                pattern = np.zeros(n + 1)
-                pattern[k] = 1.0
-                sources[element.key] = ("V", element_number(element, element.value, values, path, "value"), pattern)
-            elif kind == "E":
-                gain = element_number(element, element.value, values, path, "gain")
-                a[k, idx(nd[2])] -= gain
-                a[k, idx(nd[3])] += gain
-            elif kind == "H":
-                gain = element_number(element, element.value, values, path, "transresistance")
-                a[k, branch_index[element.control.lower()]] -= gain
-        elif kind == "I":
-            pattern = np.zeros(n + 1)
-            pattern[idx(nd[0])] -= 1.0
-            pattern[idx(nd[1])] += 1.0
-            sources[element.key] = ("I", element_number(element, element.value, values, path, "value"), pattern)
-        elif kind == "G":
-            g = element_number(element, element.value, values, path, "transconductance")
-            p, m, cp, cm = (idx(x) for x in nd)
-            a[p, cp] += g
-            a[p, cm] -= g
-            a[m, cp] -= g
-            a[m, cm] += g
-        elif kind == "F":
-            gain = element_number(element, element.value, values, path, "gain")
-            k = branch_index[element.control.lower()]
-            a[idx(nd[0]), k] += gain
-            a[idx(nd[1]), k] -= gain
-        elif kind == "Q":
-            type_, params, tnom = resolved_model_parameters(circuit, element, process, values)
-            model = BjtModel.from_params(type_, params, tnom)
-            mult = _multiplier(element, ("m", "area"), values, path)
-            bjts.append((element, model, model.at(temperature, mult)))
-        elif kind == "M":
-            type_, params, tnom = resolved_model_parameters(circuit, element, process, values)
-            model = MosModel.from_params(type_, params, tnom)
-            w = element_number(element, element.params["w"], values, path, "w") if "w" in element.params else 1.0
-            l = element_number(element, element.params["l"], values, path, "l") if "l" in element.params else 1.0
-            if w <= 0 or l <= 0:
-                raise CircuitError(f"{element.name}: w and l must be positive", path=path, line=element.line)
-            mult = _multiplier(element, ("m",), values, path)
-            moses.append((element, model, model.at(temperature, w, l, mult)))
-            # simulators put GMIN across the bulk junctions; it also keeps an off device's nodes defined
-            _stamp_conductance(a, idx(nd[0]), idx(nd[3]), GMIN)
-            _stamp_conductance(a, idx(nd[2]), idx(nd[3]), GMIN)
-        # C: open at DC
-
+    context = StampContext.create(circuit, process, temperature, values, samples)
+    stamps = [(element, KINDS[element.kind].hook("dc")(element, context)) for element in circuit.elements]
+    nodes = [n for n in circuit.nodes if n != GROUND] + [n for _, s in stamps for n in s.internal_nodes]
+    branches = [element for element, stamp in stamps if stamp.branch]
+    node_count = len(nodes)
+    n = node_count + len(branches)
+    index: dict[Any, int] = {node: i for i, node in enumerate(nodes)}
+    index[GROUND] = n
+    index.update({Branch(e.key): node_count + i for i, e in enumerate(branches)})
     return DcSystem(
         circuit=circuit,
-        temperature=float(temperature),
+        temperature=context.temperature,
+        batch=context.batch,
         unknowns=tuple(nodes) + tuple(f"I({e.name})" for e in branches),
-        node_index=MappingProxyType(node_index),
-        branch_index=MappingProxyType(branch_index),
-        matrix=a,
-        sources=MappingProxyType(sources),
-        resistors=MappingProxyType(resistors),
-        bjt=_bank(bjts, node_index, stack_bjts, 3),
-        mos=_bank(moses, node_index, stack_mos, 4),
+        node_count=node_count,
+        node_index={k: v for k, v in index.items() if isinstance(k, str)},
+        branch_index={k.element: v for k, v in index.items() if isinstance(k, Branch)},
+        matrix=_matrix(stamps, index, n),
+        sources=_sources(stamps, index, n),
+        currents=_currents(stamps, index),
+        banks=(banks := _banks(stamps, index, context)),
+        layout=_layout(banks, n),
+        off_relations=tuple(r for _, stamp in stamps for r in stamp.off),
         process=process,
-        values=MappingProxyType(dict(values or {})),
+        values=dict(values or {}),
+        samples=dict(samples or {}),
     )
 
 
-def _multiplier(element: Element, keys: tuple[str, ...], values, path) -> float:
-    factor = 1.0
-    for key in keys:
-        if key in element.params:
-            factor *= element_number(element, element.params[key], values, path, key)
-    if factor <= 0:
-        raise CircuitError(f"{element.name}: {'/'.join(keys)} must be positive", path=path, line=element.line)
-    return factor
+def _rows(values) -> int:
+    return max([1] + [np.size(v) for v in values])
 
 
-def _stamp_conductance(a: np.ndarray, p: int, m: int, g: float) -> None:
-    a[p, p] += g
-    a[m, m] += g
-    a[p, m] -= g
-    a[m, p] -= g
+def _matrix(stamps: list[tuple[Element, DcStamp]], index: dict, n: int) -> np.ndarray:
+    entries = [entry for _, stamp in stamps for entry in stamp.entries]
+    a = np.zeros((_rows(v for _, _, v in entries), n + 1, n + 1))
+    for row, col, value in entries:
+        a[:, index[row], index[col]] += value
+    return a[:, :n, :n].copy()
 
 
-def _bank(items, node_index, stack, count: int) -> DeviceBank | None:
-    if not items:
-        return None
-    terminals = np.array([[node_index[e.nodes[i]] for e, _, _ in items] for i in range(count)], dtype=int)
-    return DeviceBank(
-        names=tuple(e.name for e, _, _ in items),
-        terminals=terminals,
-        params=stack([t for _, _, t in items]),
-        models=tuple(m for _, m, _ in items),
-        lines=tuple(e.line for e, _, _ in items),
-    )
+def _sources(stamps: list[tuple[Element, DcStamp]], index: dict, n: int) -> dict[str, Source]:
+    out = {}
+    for element, stamp in stamps:
+        if stamp.source is None:
+            continue
+        pattern = np.zeros(n + 1)
+        for row, coefficient in stamp.source.pattern:
+            pattern[index[row]] += coefficient
+        out[element.key] = Source(stamp.source.quantity, np.atleast_1d(np.asarray(stamp.source.value, dtype=float)),
+                                  pattern[:n])
+    return out
+
+
+def _currents(stamps: list[tuple[Element, DcStamp]], index: dict) -> dict[str, ElementCurrent]:
+    out = {}
+    for element, stamp in stamps:
+        if stamp.current is None:
+            continue
+        source = element.key if stamp.source is not None and stamp.source.quantity == "current" else None
+        columns = np.array([index[node] for node, _ in stamp.current], dtype=int)
+        rows = _rows(c for _, c in stamp.current)
+        coefficient = np.zeros((rows, len(columns)))
+        for j, (_, c) in enumerate(stamp.current):
+            coefficient[:, j] = c
+        out[element.name] = ElementCurrent(columns, coefficient, source)
+    return out
+
+
+def _banks(stamps: list[tuple[Element, DcStamp]], index: dict, context: StampContext) -> tuple[DeviceBank, ...]:
+    grouped: dict[str, list[tuple[Element, Any]]] = {}
+    for element, stamp in stamps:
+        if stamp.device is not None:
+            grouped.setdefault(stamp.device.model.letter, []).append((element, stamp.device))
+    celsius = np.asarray(context.temperature, dtype=float)
+    if celsius.ndim:
+        celsius = celsius[:, None]
+    banks = []
+    for items in grouped.values():
+        model = items[0][1].model
+        numbers = model.numbers(stack_parameters([d.params for _, d in items]), celsius)
+        # polarity never varies over the batch: the first row holds it
+        polarity = np.broadcast_to(np.atleast_2d(np.asarray(numbers.polarity, dtype=float))[:1], (1, len(items)))[0].copy()
+        banks.append(DeviceBank(
+            model=model,
+            names=tuple(e.name for e, _ in items),
+            types=tuple(d.type for _, d in items),
+            lines=tuple(e.line for e, _ in items),
+            terminals=np.array([[index[t] for t in d.terminals] for _, d in items], dtype=int),
+            pins=np.array([[index[p] for p in d.pins] for _, d in items], dtype=int),
+            polarity=polarity,
+            numbers=numbers,
+        ))
+    return tuple(banks)
+
+
+def _scatter(destinations: list[int], sources: list[int], signs: list[float], width: int):
+    """Dense signed map from flattened entries (``width`` of them) to their unique destinations."""
+    targets, column = np.unique(np.array(destinations, dtype=int), return_inverse=True)
+    scatter = np.zeros((width, targets.size))
+    np.add.at(scatter, (np.array(sources, dtype=int), column), np.array(signs, dtype=float))
+    return scatter, targets
+
+
+def _layout(banks: tuple[DeviceBank, ...], n: int) -> StampLayout:
+    matrix: tuple[list, list, list] = ([], [], [])  # destination, source, sign
+    rhs: tuple[list, list, list] = ([], [], [])
+    jacobian_offset = current_offset = 0
+    for bank in banks:
+        ndev = bank.size
+        terminals = len(bank.model.current_terminals)
+        controls = len(bank.model.controls)
+        for d in range(ndev):
+            for r, t in enumerate(bank.model.current_terminals):
+                row = bank.terminals[d, t]
+                if row >= n:
+                    continue
+                for target, value in zip(rhs, (row, current_offset + d * terminals + r, -bank.polarity[d])):
+                    target.append(value)
+                for c in range(controls):
+                    flat = jacobian_offset + (d * terminals + r) * controls + c
+                    for column, sign in ((bank.plus[d, c], 1.0), (bank.minus[d, c], -1.0)):
+                        if column < n:
+                            for target, value in zip(matrix, (row * n + column, flat, sign)):
+                                target.append(value)
+        jacobian_offset += ndev * terminals * controls
+        current_offset += ndev * terminals
+    return StampLayout(*_scatter(*matrix, jacobian_offset), *_scatter(*rhs, current_offset))

@@ -42,6 +42,9 @@ from typing import Mapping
 
 import numpy as np
 
+from .dc_context import DcStamp, DeviceStamp
+from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation, pn_limit,
+                        safe_exp, safe_exp_and_slope, safe_exp_slope)
 from .temperature import kelvin, thermal_voltage
 
 __all__ = [
@@ -59,6 +62,9 @@ __all__ = [
     "bjt_vcesat",
     "stack_bjts",
     "safe_exp",
+    "bjt_numbers",
+    "bjt_dc",
+    "BJT",
 ]
 
 #: Parameter defaults where neither the netlist nor the process gives one (SPICE defaults).
@@ -67,33 +73,14 @@ BJT_DEFAULTS: dict[str, float] = {
     "XTI": 3.0, "EG": 1.11, "XTB": 0.0, "BVEBO": 6.0,
 }
 
-#: Conductance across each junction (siemens), as circuit simulators add.
-GMIN = 1e-12
-#: A device carrying less than this current (A) is reported as cut off.
-ION_MIN = 1e-12
 #: The collector junction puts a device in saturation when it removes this
 #: fraction of the collector current the active-region law would give.
 SATURATION_FRACTION = 0.01
 
-_EXP_LIMIT = 80.0
+_REGIONS = np.array(["active", "saturation", "cutoff", "reverse"])
 
-
-def safe_exp(x):
-    """exp(x), continued linearly above x = 80 so a wild Newton step cannot overflow.
-
-    Examples
-    --------
-    >>> float(safe_exp(0.0)), bool(np.isfinite(safe_exp(1e4)))
-    (1.0, True)
-    """
-    x = np.asarray(x, dtype=float)
-    clipped = np.minimum(x, _EXP_LIMIT)
-    return np.exp(clipped) * (1.0 + np.maximum(x - _EXP_LIMIT, 0.0))
-
-
-def _safe_exp_slope(x):
-    """d/dx of :func:`safe_exp`."""
-    return np.exp(np.minimum(np.asarray(x, dtype=float), _EXP_LIMIT))
+#: Parameters the model reads (``AIS`` is the mismatch coefficient, see :func:`bjt_mismatch`).
+BJT_PARAMETERS = ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO", "AIS")
 
 
 @dataclass(frozen=True)
@@ -145,22 +132,14 @@ class BjtModel:
         >>> m.at(27.0).is_ == 1e-16
         True
         """
-        t, tnom = kelvin(celsius), kelvin(self.TNOM)
-        vt = thermal_voltage(celsius)
-        ratio = t / tnom
-        is_t = self.IS * math.exp((ratio - 1.0) * self.EG / vt + self.XTI * math.log(ratio))
-        beta_factor = ratio**self.XTB
-        return BjtAtTemperature(
-            polarity=self.polarity,
-            is_=is_t,
-            bf=self.BF * beta_factor,
-            br=self.BR * beta_factor,
-            nf=self.NF,
-            nr=self.NR,
-            inv_vaf=0.0 if math.isinf(self.VAF) else 1.0 / self.VAF,
-            vt=vt,
-            mult=float(multiplier),
-        )
+        params = {name: getattr(self, name) for name in ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB",
+                                                         "TNOM", "BVEBO")}
+        numbers = bjt_numbers({**params, "polarity": self.polarity, "mult": float(multiplier)}, celsius)
+        return BjtAtTemperature(**{f.name: _plain(getattr(numbers, f.name)) for f in fields(BjtAtTemperature)})
+
+
+def _plain(value):
+    return value.item() if isinstance(value, (np.ndarray, np.generic)) and np.ndim(value) == 0 else value
 
 
 @dataclass(frozen=True)
@@ -176,10 +155,16 @@ class BjtAtTemperature:
     inv_vaf: object
     vt: object
     mult: object
+    bvebo: object = 6.0
+    vcrit_forward: object = None
+    vcrit_reverse: object = None
 
-    def vcrit(self):
+    def vcrit(self, reverse: bool = False):
         """Junction voltage above which Newton steps are limited (SPICE's critical voltage)."""
-        vtn = self.nf * self.vt
+        stored = self.vcrit_reverse if reverse else self.vcrit_forward
+        if stored is not None:
+            return stored
+        vtn = (self.nr if reverse else self.nf) * self.vt
         return vtn * np.log(vtn / (math.sqrt(2.0) * self.is_))
 
 
@@ -192,9 +177,11 @@ def stack_bjts(items: list[BjtAtTemperature]) -> BjtAtTemperature:
     >>> stack_bjts([m.at(27.0), m.at(27.0, 2)]).mult
     array([1., 2.])
     """
-    return BjtAtTemperature(**{
-        f.name: np.array([getattr(item, f.name) for item in items], dtype=float) for f in fields(BjtAtTemperature)
-    })
+    def column(name: str):
+        values = [getattr(item, name) for item in items]
+        return None if any(v is None for v in values) else np.array(values, dtype=float)
+
+    return BjtAtTemperature(**{f.name: column(f.name) for f in fields(BjtAtTemperature)})
 
 
 @dataclass(frozen=True)
@@ -228,24 +215,26 @@ def bjt_currents(vbe, vbc, t: BjtAtTemperature) -> BjtCurrents:
     vbc = np.asarray(vbc, dtype=float)
     vtf = t.nf * t.vt
     vtr = t.nr * t.vt
-    xf, xr = vbe / vtf, vbc / vtr
-    icc = t.is_ * (safe_exp(xf) - 1.0)
-    iec = t.is_ * (safe_exp(xr) - 1.0)
-    gcc = t.is_ * _safe_exp_slope(xf) / vtf
-    gec = t.is_ * _safe_exp_slope(xr) / vtr
+    forward, forward_slope = safe_exp_and_slope(vbe / vtf)
+    reverse, reverse_slope = safe_exp_and_slope(vbc / vtr)
+    scaled = t.mult * t.is_  # the multiplier folded in once, on the per-device numbers
+    icc = scaled * (forward - 1.0)
+    iec = scaled * (reverse - 1.0)
+    gcc = (scaled / vtf) * forward_slope
+    gec = (scaled / vtr) * reverse_slope
     early = 1.0 - vbc * t.inv_vaf  # 1/qb
-    ic = (icc - iec) * early - iec / t.br
-    ib = icc / t.bf + iec / t.br + GMIN * (vbe + vbc)
-    m = t.mult
+    transport = icc - iec
+    reverse_base = iec / t.br
+    gmin = t.mult * GMIN
     return BjtCurrents(
-        ic=m * ic,
-        ib=m * ib,
-        dic_dvbe=m * gcc * early,
-        dic_dvbc=m * (-gec * early - (icc - iec) * t.inv_vaf - gec / t.br),
-        dib_dvbe=m * (gcc / t.bf + GMIN),
-        dib_dvbc=m * (gec / t.br + GMIN),
-        icc=m * icc,
-        iec=m * iec,
+        ic=transport * early - reverse_base,
+        ib=icc / t.bf + reverse_base + gmin * (vbe + vbc),
+        dic_dvbe=gcc * early,
+        dic_dvbc=-gec * early - transport * t.inv_vaf - gec / t.br,
+        dib_dvbe=gcc / t.bf + gmin,
+        dib_dvbc=gec / t.br + gmin,
+        icc=icc,
+        iec=iec,
     )
 
 
@@ -262,16 +251,8 @@ def bjt_limit(v_new, v_old, t: BjtAtTemperature, reverse: bool = False):
     >>> float(bjt_limit(5.0, 0.6, t)) < 0.8
     True
     """
-    v_new = np.asarray(v_new, dtype=float)
-    v_old = np.asarray(v_old, dtype=float)
     vtn = (t.nr if reverse else t.nf) * t.vt
-    vcrit = vtn * np.log(vtn / (math.sqrt(2.0) * t.is_))
-    big = (v_new > vcrit) & (np.abs(v_new - v_old) > 2.0 * vtn)
-    arg = 1.0 + (v_new - v_old) / vtn
-    from_on = np.where(arg > 0, v_old + vtn * np.log(np.maximum(arg, 1e-300)), vcrit)
-    from_off = vtn * np.log(np.maximum(v_new / vtn, 1e-300))
-    limited = np.where(v_old > 0, from_on, from_off)
-    return np.where(big, limited, v_new)
+    return pn_limit(v_new, v_old, vtn, t.vcrit(reverse))
 
 
 def bjt_region(c: BjtCurrents, vbc, t: BjtAtTemperature) -> np.ndarray:
@@ -295,7 +276,8 @@ def bjt_region(c: BjtCurrents, vbc, t: BjtAtTemperature) -> np.ndarray:
     cutoff = (np.abs(c.icc) < ION_MIN * 1.0) & (np.abs(c.iec) < ION_MIN * 1.0)
     reverse = c.iec > c.icc
     saturated = deficit > SATURATION_FRACTION * forward
-    return np.where(cutoff, "cutoff", np.where(reverse, "reverse", np.where(saturated, "saturation", "active")))
+    codes = np.where(cutoff, 2, np.where(reverse, 3, np.where(saturated, 1, 0)))
+    return _REGIONS[codes]
 
 
 def bjt_small_signal(c: BjtCurrents) -> dict[str, np.ndarray]:
@@ -345,3 +327,166 @@ def bjt_vcesat(vbe, t: BjtAtTemperature, fraction: float = SATURATION_FRACTION):
         target = fraction * icc * early / (early + 1.0 / t.br)
         vbc = t.nr * t.vt * np.log1p(target / t.is_)
     return vbe - vbc
+
+
+def bjt_numbers(params: Mapping[str, object], celsius) -> BjtAtTemperature:
+    """The SPICE temperature laws on parameter arrays (one column per device, one row per sample).
+
+    ``params`` holds ``IS BF BR NF NR VAF XTI EG XTB TNOM BVEBO`` (``VAF``
+    infinite or 0 for no Early effect), ``polarity`` and ``mult``.
+
+    Examples
+    --------
+    >>> p = {**BJT_DEFAULTS, "TNOM": 27.0, "polarity": 1, "mult": 1.0}
+    >>> float(bjt_numbers(p, 127.0).is_) / 1e-16 > 100
+    True
+    """
+    celsius = np.asarray(celsius, dtype=float)
+    ratio = kelvin(celsius) / kelvin(np.asarray(params["TNOM"], dtype=float))
+    vt = thermal_voltage(celsius)
+    vaf = np.asarray(params["VAF"], dtype=float)
+    finite = np.isfinite(vaf) & (vaf != 0)
+    with np.errstate(divide="ignore"):
+        inv_vaf = np.where(finite, 1.0 / np.where(finite, vaf, 1.0), 0.0)
+    beta_factor = ratio ** np.asarray(params["XTB"], dtype=float)
+    is_t = params["IS"] * np.exp((ratio - 1.0) * params["EG"] / vt + params["XTI"] * np.log(ratio))
+    vtf, vtr = params["NF"] * vt, params["NR"] * vt
+    return BjtAtTemperature(
+        polarity=np.asarray(params["polarity"], dtype=float),
+        is_=is_t,
+        bf=params["BF"] * beta_factor,
+        br=params["BR"] * beta_factor,
+        nf=np.asarray(params["NF"], dtype=float),
+        nr=np.asarray(params["NR"], dtype=float),
+        inv_vaf=inv_vaf,
+        vt=vt,
+        mult=np.asarray(params["mult"], dtype=float),
+        bvebo=np.asarray(params["BVEBO"], dtype=float),
+        vcrit_forward=vtf * np.log(vtf / (math.sqrt(2.0) * is_t)),
+        vcrit_reverse=vtr * np.log(vtr / (math.sqrt(2.0) * is_t)),
+    )
+
+
+# -- the device interface (symbias.devices.nonlinear) ------------------------------------------------
+
+
+def _stamp(model: DeviceModel, element, context) -> DcStamp:
+    type_, params, tnom = context.model_parameters(element)
+    merged = {**BJT_DEFAULTS, **params}
+    numbers = {name: merged[name] for name in ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO")}
+    numbers.update(TNOM=tnom, polarity=-1.0 if type_ == "pnp" else 1.0,
+                   mult=context.multiplier(element, ("m", "area")))
+    c, b, e = element.nodes[:3]
+    return DcStamp(device=DeviceStamp(model, type_, (c, b, e), (c, b, e), numbers), off=((e, b, 0.0), (b, e, 0.0)))
+
+
+def _terminal_currents(c: BjtCurrents) -> np.ndarray:
+    currents = np.empty(np.shape(c.ic) + (3,))
+    currents[..., 0], currents[..., 1] = c.ic, c.ib
+    currents[..., 2] = -(c.ic + c.ib)
+    return currents
+
+
+def _evaluate(t: BjtAtTemperature, controls: np.ndarray):
+    c = bjt_currents(controls[..., 0], controls[..., 1], t)
+    currents = _terminal_currents(c)
+    jacobian = np.empty(currents.shape + (2,))
+    jacobian[..., 0, 0], jacobian[..., 0, 1] = c.dic_dvbe, c.dic_dvbc
+    jacobian[..., 1, 0], jacobian[..., 1, 1] = c.dib_dvbe, c.dib_dvbc
+    jacobian[..., 2, 0] = -(c.dic_dvbe + c.dib_dvbe)
+    jacobian[..., 2, 1] = -(c.dic_dvbc + c.dib_dvbc)
+    return currents, jacobian
+
+
+def _limit(t: BjtAtTemperature, new: np.ndarray, old: np.ndarray) -> np.ndarray:
+    out = np.empty_like(new)
+    out[..., 0] = bjt_limit(new[..., 0], old[..., 0], t)
+    out[..., 1] = bjt_limit(new[..., 1], old[..., 1], t, reverse=True)
+    return out
+
+
+def _start(t: BjtAtTemperature, kind: str, raw: np.ndarray) -> np.ndarray:
+    out = np.zeros_like(raw)
+    if kind == "on":
+        out[..., 0] = t.vcrit()
+    return out
+
+
+def _describe(t: BjtAtTemperature, controls: np.ndarray) -> Description:
+    vbe, vbc = controls[..., 0], controls[..., 1]
+    c = bjt_currents(vbe, vbc, t)
+    return Description(bjt_region(c, vbc, t), bjt_small_signal(c), {"vcesat": bjt_vcesat(vbe, t)},
+                       _terminal_currents(c))
+
+
+def _check(t: BjtAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:
+    vbe = controls[..., 0]
+    bvebo = np.broadcast_to(t.bvebo, vbe.shape)
+    worst = np.maximum(np.abs(currents[..., 0]), np.abs(currents[..., 1]))
+    return [
+        Violation(vbe < -bvebo, -vbe, "{name}: emitter-base junction reversed by {value:.3g} V, beyond BVEBO = "
+                  "{limit:g} V (the model has no breakdown); check the sources driving it", bvebo),
+        Violation(worst > MAX_CURRENT, worst,
+                  "{name}: {value:.3g} A through a junction forced on hard (a voltage source across it?)"),
+    ]
+
+
+def bjt_mismatch(params: Mapping[str, object], element, context) -> dict[str, tuple[object, object]]:
+    """Random variation of one BJT: ``IS`` with a relative sigma ``AIS / sqrt(2 area m)``.
+
+    ``AIS`` (process or model card) is the sigma of the saturation-current
+    ratio of two unit-area devices, so each device of ``area * m`` units
+    varies by ``AIS / sqrt(2 area m)``; no ``AIS`` means no variation.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.devices.dc_context import StampContext
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nQ1 a a 0 QN 2\\n.model QN npn (IS=1e-16 AIS=0.02)\\n")
+    >>> nominal, sigma = bjt_mismatch({"IS": 1e-16, "AIS": 0.02}, c.element("Q1"), StampContext.create(c))["IS"]
+    >>> round(float(sigma / nominal), 6)
+    0.01
+    """
+    coefficient = params.get("AIS", 0.0)
+    if not np.any(np.asarray(coefficient) > 0):
+        return {}
+    units = context.multiplier(element, ("m", "area"))
+    nominal = params.get("IS", BJT_DEFAULTS["IS"])
+    return {"IS": (nominal, nominal * coefficient / np.sqrt(2.0 * units))}
+
+
+def _matched(prefix: str, device, source, ratio):
+    import sympy
+
+    name = {"VBE": "VBE", "VCEsat": "VCEsat"}[prefix]
+    value = abs(source.voltages["vbe"]) if prefix == "VBE" else source.limits["vcesat"]
+    return sympy.Symbol(name), {name: value}
+
+
+#: The bipolar transistor as the DC solver sees it (the ``dc`` hook of ``Q``).
+BJT = DeviceModel(
+    letter="Q",
+    terminals=("c", "b", "e"),
+    controls=(("vbe", 1, 2), ("vbc", 1, 0)),
+    current_terminals=(0, 1, 2),
+    output="c",
+    voltages=(("vbe", 1, 2), ("vce", 0, 2), ("vbc", 1, 0)),
+    parameters=BJT_PARAMETERS,
+    stamp=_stamp,
+    numbers=bjt_numbers,
+    evaluate=_evaluate,
+    limit=_limit,
+    start=_start,
+    describe=_describe,
+    check=_check,
+    working_regions=frozenset({"active"}),
+    fields=(("IC", "currents", "c", "A"), ("VBE", "voltages", "vbe", "V"), ("VCE", "voltages", "vce", "V"),
+            ("gm", "small_signal", "gm", "S"), ("rpi", "small_signal", "rpi", "ohm"),
+            ("ro", "small_signal", "ro", "ohm"), ("VCEsat", "limits", "vcesat", "V")),
+    headroom=HeadroomRole(output=(0, 2), control=1, drop=("VBE", "vbe"), saturation=("VCEsat", "vcesat"),
+                          matched=_matched, size=lambda element: 1.0),
+    mismatch=bjt_mismatch,
+)
+
+#: The ``dc`` hook named in :mod:`symbias.elements`.
+bjt_dc = BJT

@@ -40,7 +40,9 @@ from typing import Mapping
 
 import numpy as np
 
-from .bjt import ION_MIN
+from ..errors import CircuitError
+from .dc_context import DcStamp, DeviceStamp
+from .nonlinear import GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation
 from .temperature import kelvin, thermal_voltage
 
 __all__ = [
@@ -53,6 +55,12 @@ __all__ = [
     "mos_region",
     "mos_small_signal",
     "stack_mos",
+    "mos_numbers",
+    "mos_mismatch",
+    "mos_size",
+    "mos_dc",
+    "MOS",
+    "BULK_FORWARD_LIMIT",
 ]
 
 #: Parameter defaults where neither the netlist nor the process gives one (SPICE level-1
@@ -63,6 +71,10 @@ MOS_DEFAULTS: dict[str, float] = {
 
 #: Largest change of vgs (V) the solver takes in one Newton step.
 VGS_STEP = 0.5
+#: Forward bias (V) of a bulk junction beyond which a result is refused (bulk diodes are not modelled).
+BULK_FORWARD_LIMIT = 0.5
+#: Parameters the model reads (``AVT``, ``ABETA``: mismatch coefficients, see :func:`mos_mismatch`).
+MOS_PARAMETERS = ("VTO", "KP", "LAMBDA", "GAMMA", "PHI", "TCV", "BEX", "AVT", "ABETA")
 
 
 @dataclass(frozen=True)
@@ -102,19 +114,13 @@ class MosModel:
         >>> round(m.at(127.0).vto, 6)
         0.5
         """
-        ratio = kelvin(celsius) / kelvin(self.TNOM)
-        vt = thermal_voltage(celsius)
-        n = 1.0 + self.GAMMA / (2.0 * math.sqrt(self.PHI))
-        return MosAtTemperature(
-            polarity=self.polarity,
-            vto=self.polarity * self.VTO + self.TCV * (celsius - self.TNOM),
-            beta=self.KP * ratio**self.BEX * (w / l) * multiplier,
-            lam=self.LAMBDA,
-            gamma=self.GAMMA,
-            phi=self.PHI,
-            s=2.0 * n * vt,
-            vt=vt,
-        )
+        params = {name: getattr(self, name) for name in ("VTO", "KP", "LAMBDA", "GAMMA", "PHI", "TCV", "BEX", "TNOM")}
+        numbers = mos_numbers({**params, "polarity": self.polarity, "w": w, "l": l, "mult": multiplier}, celsius)
+        return MosAtTemperature(**{f.name: _plain(getattr(numbers, f.name)) for f in fields(MosAtTemperature)})
+
+
+def _plain(value):
+    return value.item() if isinstance(value, (np.ndarray, np.generic)) and np.ndim(value) == 0 else value
 
 
 @dataclass(frozen=True)
@@ -166,7 +172,11 @@ class MosCurrents:
 def _threshold(vbs, t: MosAtTemperature):
     """VTH and dVTH/dvbs; for vbs > 0 the level-1 linear continuation of the square root."""
     sqrt_phi = np.sqrt(t.phi)
+    if not np.any(t.gamma):
+        return t.vto + np.zeros_like(vbs), np.zeros_like(vbs)
     root = np.sqrt(np.maximum(t.phi - np.minimum(vbs, 0.0), 0.0))
+    if not (vbs > 0.0).any() and (root > 0).all():  # the usual case: bulk reverse-biased or at the source
+        return t.vto + t.gamma * (root - sqrt_phi), t.gamma * (-0.5 / root)
     linear = sqrt_phi - np.maximum(vbs, 0.0) / (2.0 * sqrt_phi)
     sarg = np.where(vbs <= 0.0, root, np.maximum(linear, 0.0))
     dsarg = np.where(vbs <= 0.0, -0.5 / np.where(root > 0, root, 1.0), np.where(linear > 0, -0.5 / sqrt_phi, 0.0))
@@ -219,6 +229,9 @@ def mos_currents(vgs, vds, vbs, t: MosAtTemperature) -> MosCurrents:
     vds = np.asarray(vds, dtype=float)
     vbs = np.asarray(vbs, dtype=float)
     flip = vds < 0.0
+    if not flip.any():
+        i_m, gm_m, gds_m, gmb_m, vth, vov, forward = _forward_mode(vgs, vds, vbs, t)
+        return MosCurrents(i_m, gm_m, gds_m, gmb_m, vth, vov, forward, flip)
     # in reverse mode the drain acts as source: vgs' = vgd, vds' = -vds, vbs' = vbd
     vgs_m = np.where(flip, vgs - vds, vgs)
     vds_m = np.abs(vds)
@@ -290,3 +303,183 @@ def mos_small_signal(c: MosCurrents, t: MosAtTemperature) -> dict[str, np.ndarra
         ro = np.where(gds > 0, 1.0 / np.where(gds > 0, gds, 1.0), np.inf)
     return {"gm": gm, "gmb": gmb, "ro": ro}
 
+
+
+def mos_numbers(params: Mapping[str, object], celsius) -> MosAtTemperature:
+    """The model's temperature laws on parameter arrays (one column per device, one row per sample).
+
+    ``params`` holds ``VTO KP LAMBDA GAMMA PHI TCV BEX TNOM``, ``polarity``,
+    ``w``, ``l`` and ``mult``.
+
+    Examples
+    --------
+    >>> p = {**MOS_DEFAULTS, "VTO": 0.7, "TCV": -2e-3, "TNOM": 27.0, "polarity": 1, "w": 1.0, "l": 1.0, "mult": 1.0}
+    >>> round(float(mos_numbers(p, 127.0).vto), 6)
+    0.5
+    """
+    celsius = np.asarray(celsius, dtype=float)
+    tnom = np.asarray(params["TNOM"], dtype=float)
+    ratio = kelvin(celsius) / kelvin(tnom)
+    vt = thermal_voltage(celsius)
+    gamma = np.asarray(params["GAMMA"], dtype=float)
+    phi = np.asarray(params["PHI"], dtype=float)
+    n = 1.0 + gamma / (2.0 * np.sqrt(phi))
+    polarity = np.asarray(params["polarity"], dtype=float)
+    return MosAtTemperature(
+        polarity=polarity,
+        vto=polarity * params["VTO"] + params["TCV"] * (celsius - tnom),
+        beta=params["KP"] * ratio ** np.asarray(params["BEX"], dtype=float) * (params["w"] / params["l"])
+        * params["mult"],
+        lam=np.asarray(params["LAMBDA"], dtype=float),
+        gamma=gamma,
+        phi=phi,
+        s=2.0 * n * vt,
+        vt=vt,
+    )
+
+
+# -- the device interface (symbias.devices.nonlinear) ------------------------------------------------
+
+
+def _stamp(model: DeviceModel, element, context) -> DcStamp:
+    type_, params, tnom = context.model_parameters(element)
+    merged = {**MOS_DEFAULTS, **params}
+    numbers = {name: merged[name] for name in MOS_DEFAULTS}
+    w, l = context.instance(element, "w", 1.0), context.instance(element, "l", 1.0)
+    if np.any(np.asarray(w) <= 0) or np.any(np.asarray(l) <= 0):
+        raise CircuitError(f"{element.name}: w and l must be positive", path=context.circuit.path, line=element.line)
+    numbers.update(TNOM=tnom, polarity=-1.0 if type_ == "pmos" else 1.0, w=w, l=l,
+                   mult=context.multiplier(element, ("m",)))
+    d, g, s, b = element.nodes
+    # simulators put GMIN across the bulk junctions; it also keeps an off device's nodes defined
+    entries = tuple((p, q, sign * GMIN) for x in (d, s) for p, q, sign in ((x, x, 1.0), (b, b, 1.0), (x, b, -1.0),
+                                                                         (b, x, -1.0)))
+    return DcStamp(entries=entries, device=DeviceStamp(model, type_, (d, g, s, b), (d, g, s, b), numbers),
+                   off=((s, g, 0.0), (g, s, 0.0)))
+
+
+def _evaluate(t: MosAtTemperature, controls: np.ndarray):
+    """Drain and source currents (the gate and bulk carry none) and their Jacobian."""
+    c = mos_currents(controls[..., 0], controls[..., 1], controls[..., 2], t)
+    currents = np.empty(controls.shape[:-1] + (2,))
+    currents[..., 0], currents[..., 1] = c.id, -c.id
+    jacobian = np.empty(currents.shape + (3,))
+    jacobian[..., 0, 0], jacobian[..., 0, 1], jacobian[..., 0, 2] = c.did_dvgs, c.did_dvds, c.did_dvbs
+    jacobian[..., 1, :] = -jacobian[..., 0, :]
+    return currents, jacobian
+
+
+def _limit(t: MosAtTemperature, new: np.ndarray, old: np.ndarray) -> np.ndarray:
+    out = new.copy()
+    out[..., 0] = mos_limit(new[..., 0], old[..., 0])
+    return out
+
+
+def _start(t: MosAtTemperature, kind: str, raw: np.ndarray) -> np.ndarray:
+    out = raw.copy()
+    out[..., 0] = t.vto + 1.0 if kind == "on" else 0.0
+    return out
+
+
+def _describe(t: MosAtTemperature, controls: np.ndarray) -> Description:
+    vds = controls[..., 1]
+    c = mos_currents(controls[..., 0], vds, controls[..., 2], t)
+    limits = {"vth": t.polarity * c.vth, "vov": c.vov, "vdsat": np.maximum(c.vov, t.s)}
+    currents = np.stack([c.id, -c.id], axis=-1)
+    return Description(mos_region(c, vds, t), mos_small_signal(c, t), limits, currents)
+
+
+def _check(t: MosAtTemperature, controls: np.ndarray, currents: np.ndarray) -> list[Violation]:
+    vds, vbs = controls[..., 1], controls[..., 2]
+    drain = currents[..., 0]
+    forward = np.maximum(vbs, vbs - vds)
+    return [
+        Violation(forward > BULK_FORWARD_LIMIT, forward,
+                  "{name}: bulk junction forward-biased by {value:.3g} V (bulk diodes are not modelled); tie the "
+                  "bulk to the lowest (nmos) or highest (pmos) supply"),
+        Violation(np.abs(drain) > MAX_CURRENT, drain, "{name}: implausible drain current {value:.3g} A"),
+    ]
+
+
+def mos_mismatch(params: Mapping[str, object], element, context) -> dict[str, tuple[object, object]]:
+    """Random variation of one MOS device by Pelgrom's law.
+
+    ``AVT`` (V m) and ``ABETA`` (m) are Pelgrom's coefficients for the
+    difference of a pair of devices of gate area ``W L``: ``sigma(dVT) =
+    AVT / sqrt(W L)``, ``sigma(dbeta/beta) = ABETA / sqrt(W L)`` (Pelgrom,
+    Duinmaijer and Welbers, IEEE JSSC 24(5), 1989).  Each device varies
+    independently by ``1/sqrt(2)`` of that: ``VTO`` by ``AVT / sqrt(2 W L m)``
+    (absolute), ``KP`` by ``ABETA / sqrt(2 W L m)`` (relative).
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.devices.dc_context import StampContext
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nM1 a a 0 0 NCH W=2u L=2u\\n.model NCH nmos (AVT=8e-9)\\n")
+    >>> nominal, sigma = mos_mismatch({"VTO": 0.7, "AVT": 8e-9}, c.element("M1"), StampContext.create(c))["VTO"]
+    >>> round(float(sigma) * 1e3, 4)
+    2.8284
+    """
+    avt, abeta = params.get("AVT", 0.0), params.get("ABETA", 0.0)
+    area = (context.instance(element, "w", 1.0) * context.instance(element, "l", 1.0)
+            * context.multiplier(element, ("m",)))
+    out: dict[str, tuple[object, object]] = {}
+    if np.any(np.asarray(avt) > 0):
+        out["VTO"] = (params.get("VTO", MOS_DEFAULTS["VTO"]), avt / np.sqrt(2.0 * area))
+    if np.any(np.asarray(abeta) > 0):
+        kp = params.get("KP", MOS_DEFAULTS["KP"])
+        out["KP"] = (kp, kp * abeta / np.sqrt(2.0 * area))
+    return out
+
+
+def mos_size(element) -> float:
+    """W/L times m of a MOS element, from its netlist numbers (1 for what is not given).
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> mos_size(parse_netlist("t\\nV1 a 0 1\\nM1 a a 0 0 N W=4u L=1u m=2\\n.model N nmos\\n").element("M1"))
+    8.0
+    """
+    params = element.params
+    w = float(params["w"]) if "w" in params else 1.0
+    l = float(params["l"]) if "l" in params else 1.0
+    m = float(params["m"]) if "m" in params else 1.0
+    return w / l * m
+
+
+def _matched(prefix: str, device, source, ratio):
+    import sympy
+
+    scaled = sympy.Symbol("Vov") * sympy.sqrt(ratio)
+    expr = (sympy.Symbol("VTH") + scaled) if prefix == "VGS" else scaled
+    return expr, {"Vov": source.limits["vov"], "VTH": abs(device.limits["vth"])}
+
+
+#: The MOS transistor as the DC solver sees it (the ``dc`` hook of ``M``).
+MOS = DeviceModel(
+    letter="M",
+    terminals=("d", "g", "s", "b"),
+    controls=(("vgs", 1, 2), ("vds", 0, 2), ("vbs", 3, 2)),
+    current_terminals=(0, 2),
+    output="d",
+    voltages=(("vgs", 1, 2), ("vds", 0, 2), ("vbs", 3, 2)),
+    parameters=MOS_PARAMETERS,
+    stamp=_stamp,
+    numbers=mos_numbers,
+    evaluate=_evaluate,
+    limit=_limit,
+    start=_start,
+    describe=_describe,
+    check=_check,
+    working_regions=frozenset({"saturation"}),
+    fields=(("ID", "currents", "d", "A"), ("VGS", "voltages", "vgs", "V"), ("VDS", "voltages", "vds", "V"),
+            ("gm", "small_signal", "gm", "S"), ("gmb", "small_signal", "gmb", "S"),
+            ("ro", "small_signal", "ro", "ohm"), ("Vov", "limits", "vov", "V")),
+    headroom=HeadroomRole(output=(0, 2), control=1, drop=("VGS", "vgs"), saturation=("Vov", "vdsat"),
+                          matched=_matched, size=mos_size, smallest=("VTH",)),
+    mismatch=mos_mismatch,
+)
+
+#: The ``dc`` hook named in :mod:`symbias.elements`.
+mos_dc = MOS

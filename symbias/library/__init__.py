@@ -10,7 +10,7 @@ in ``docs/library-format.md``.
 The package is layered, each module importing only from those above it:
 
 * :mod:`~symbias.library.fields`: the allowed values and the checks of single fields;
-* :mod:`~symbias.library.source`: TOML decoding and the line of every key;
+* :mod:`~symbias.tomlfile` (shared): TOML decoding and the line of every key;
 * :mod:`~symbias.library.topology`: the frozen, validated, picklable domain objects;
 * :mod:`~symbias.library.reading`: one file -> :class:`Topology`, every error at its file and line;
 * :mod:`~symbias.library.search`: the library folders, loading them, looking one topology up;

@@ -46,7 +46,7 @@ from .fields import (
     check_text,
     check_year,
 )
-from .source import KeyLines, read_toml
+from ..tomlfile import KeyLines, read_toml
 from .topology import ExpectedFormula, Reference, Topology, Variable, netlist_circuit, remember_circuit
 
 __all__ = ["parse_topology", "load_topology", "identifier_line", "CACHE_SIZE"]

@@ -137,9 +137,14 @@ def encode(values: Iterable[Expr]) -> tuple[RingVariable, ...]:
     """
     found: dict[str, RingVariable] = {}
     atoms: dict[Expr, str] = {}
-    for value in values:
+    for value in dict.fromkeys(values):  # each distinct value once, in first-seen order
         for monomial in value.terms():
             for base, exponent in monomial:
+                if isinstance(base, Symbol):  # named without building ``1/x`` again (Expr division is not free)
+                    name = base.name if exponent > 0 else f"1/{base.name}"
+                    if name not in found:
+                        found[name] = _variable_for(base, exponent, atoms)
+                    continue
                 variable = _variable_for(base, exponent, atoms)
                 found.setdefault(variable.name, variable)
     symbol_vars = sorted((v for v in found.values() if v.power), key=lambda v: (v.symbol, v.power))
@@ -404,6 +409,16 @@ class Solution:
     numerator: Any
     denominator: Any
     states: int
+
+    def __reduce__(self):
+        # python-flint polynomials do not pickle: send their terms, rebuild them in the unpickled ring
+        packed = (self.ring.pack(self.numerator), self.ring.pack(self.denominator))
+        return (_rebuild_solution, (self.ring, self.variables, packed, self.states))
+
+
+def _rebuild_solution(ring: Ring, variables, packed, states: int) -> Solution:
+    """Unpickle a :class:`Solution` (see :meth:`Solution.__reduce__`)."""
+    return Solution(ring, variables, ring.unpack(packed[0]), ring.unpack(packed[1]), states)
 
 
 def build_system(network: LinearNetwork, backend: str | None = None):

@@ -30,7 +30,10 @@ from ..errors import CircuitError
 from ..expressions import Symbol
 from ..symbols import LAPLACE, Meaning, device_symbol
 
-__all__ = ["LinearNetwork", "expand", "bias_values"]
+__all__ = ["LinearNetwork", "expand", "bias_values", "matched_spread", "MATCH_TOLERANCE"]
+
+#: Relative difference of matched devices' small-signal values above which a shared symbol is a poor fit.
+MATCH_TOLERANCE = 0.01
 
 
 @dataclass(frozen=True)
@@ -199,3 +202,53 @@ def bias_values(
         if options.beta and "gm" in data and "rpi" in data:
             values.setdefault(device_symbol("beta", info.owner), float(data["gm"] * data["rpi"]))
     return values
+
+
+def matched_spread(
+    circuit: Circuit,
+    per_device: Mapping[str, Mapping[str, float]],
+    options: SmallSignalOptions | None = None,
+    tolerance: float = MATCH_TOLERANCE,
+) -> list[str]:
+    """Where devices that share symbols differ at the operating point by more than ``tolerance``.
+
+    Values are compared per unit size (``gm/m``, ``ro*m``), which is what a
+    shared symbol means.  Each note names the group, the parameter, the device
+    that differs most and whose values the shared symbols take (the group's
+    first device, as :func:`bias_values` does).
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> c = parse_netlist("t\\nI1 0 a 1m\\nQ1 a a 0 QN\\nQ2 b a 0 QN\\nV1 b 0 5\\n.model QN npn\\n")
+    >>> matched_spread(c, {"Q1": {"gm": 0.04, "ro": 1e5}, "Q2": {"gm": 0.04, "ro": 1.3e5}}, SmallSignalOptions(match=True))
+    ['matched QN devices: ro of Q2 differs by 30% from Q1, whose values the shared symbols take']
+    """
+    from ..symbols import PARAMETERS
+
+    options = options or SmallSignalOptions()
+    symbols = device_symbols(circuit, options)
+    lookup = {k.lower(): v for k, v in per_device.items()}
+    first: dict[str, tuple[str, dict[str, float]]] = {}
+    worst: dict[tuple[str, str], tuple[float, str]] = {}
+    for device in circuit.devices:
+        info, data = symbols[device.key], lookup.get(device.key)
+        if info.group is None or data is None:
+            continue
+        m = float(info.multiplier)
+        scaled = {}
+        for parameter, number in data.items():
+            scaling = PARAMETERS[parameter].scaling if parameter in PARAMETERS else "none"
+            scaled[parameter] = number * m if scaling == "down" else number / m if scaling == "up" else number
+        if info.group not in first:
+            first[info.group] = (device.name, scaled)
+            continue
+        reference = first[info.group][1]
+        for parameter, number in scaled.items():
+            base = reference.get(parameter)
+            if base and abs(number / base - 1.0) > tolerance and abs(number / base - 1.0) > worst.get(
+                    (info.group, parameter), (0.0, ""))[0]:
+                worst[(info.group, parameter)] = (abs(number / base - 1.0), device.name)
+    return [f"matched {group} devices: {parameter} of {name} differs by {100 * spread:.2g}% from "
+            f"{first[group][0]}, whose values the shared symbols take"
+            for (group, parameter), (spread, name) in sorted(worst.items())]

@@ -23,7 +23,12 @@ from __future__ import annotations
 from fractions import Fraction
 from typing import Any, Sequence
 
-__all__ = ["Ring", "FlintRing", "SympyRing", "make_ring", "BACKENDS", "default_backend"]
+import numpy as np
+
+from ..errors import UsageError
+from .columns import TermColumns, _exponent_dtype, _int_array
+
+__all__ = ["Ring", "FlintRing", "SympyRing", "TermColumns", "make_ring", "BACKENDS", "default_backend"]
 
 BACKENDS = ("flint", "sympy")
 
@@ -78,8 +83,36 @@ class Ring:
         """``poly`` times a rational constant."""
         return poly * self.constant(factor)
 
+    def coefficients(self, poly: Any) -> tuple[list[int], list[int]]:
+        """Numerators and denominators of the coefficients, without reading any exponent."""
+        terms = self.terms(poly)
+        return [c.numerator for _, c in terms], [c.denominator for _, c in terms]
+
+    def columns(self, poly: Any) -> TermColumns:
+        """The terms of ``poly`` as arrays (:class:`TermColumns`), in term order."""
+        return TermColumns.from_terms(self.terms(poly), len(self.names))
+
+    def from_columns(self, columns: TermColumns) -> Any:
+        """The polynomial with the given terms (inverse of :meth:`columns`)."""
+        return self.from_terms(columns.terms())
+
+    def pack(self, poly: Any) -> TermColumns:
+        """A picklable form of ``poly`` (its :meth:`columns`); :meth:`unpack` rebuilds it."""
+        return self.columns(poly)
+
+    def unpack(self, packed: TermColumns) -> Any:
+        """The polynomial of :meth:`pack`."""
+        return self.from_columns(packed)
+
     def gcd(self, p: Any, q: Any) -> Any:
         raise NotImplementedError
+
+    def term_content(self, poly: Any) -> Any:
+        """The largest monomial (coefficient 1) dividing every term of a non-zero ``poly``."""
+        lowest = None
+        for exponents, _ in self.terms(poly):
+            lowest = list(exponents) if lowest is None else [min(a, b) for a, b in zip(lowest, exponents)]
+        return self.from_terms([(tuple(lowest or (0,) * len(self.names)), Fraction(1))])
 
     def exact_div(self, p: Any, q: Any) -> Any:
         raise NotImplementedError
@@ -164,6 +197,19 @@ class FlintRing(Ring):
     def exact_div(self, p, q):
         return p / q
 
+    def term_content(self, poly):
+        monomial = poly.term_content()
+        return monomial / monomial.leading_coefficient()
+
+    def coefficients(self, poly):
+        coefficients = poly.coeffs()
+        return [int(c.p) for c in coefficients], [int(c.q) for c in coefficients]
+
+    def columns(self, poly):
+        from .flint_columns import flint_columns
+
+        return flint_columns(self, poly)
+
     def __getstate__(self):
         return {"names": self.names}
 
@@ -224,6 +270,10 @@ class SympyRing(Ring):
     def exact_div(self, p, q):
         return p.exquo(q)
 
+    def coefficients(self, poly):
+        values = list(poly.values())
+        return [int(c.numerator) for c in values], [int(c.denominator) for c in values]
+
     def __getstate__(self):
         return {"names": self.names}
 
@@ -244,4 +294,4 @@ def make_ring(names: Sequence[str], backend: str | None = None) -> Ring:
         return FlintRing(names)
     if backend == "sympy":
         return SympyRing(names)
-    raise ValueError(f"unknown polynomial backend {backend!r} (choose from {', '.join(BACKENDS)})")
+    raise UsageError(f"unknown polynomial backend {backend!r} (choose from {', '.join(BACKENDS)})")

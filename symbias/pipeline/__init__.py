@@ -13,6 +13,9 @@ Each step takes plain inputs and returns frozen result objects:
   :class:`Derivation`;
 * :mod:`~symbias.pipeline.bias`: operating points (one, or every DC state) and
   the small-signal symbol values at the bias point;
+* :mod:`~symbias.pipeline.simulation` and :mod:`~symbias.pipeline.corners`:
+  bias values from ngspice with the netlist's own model cards, process
+  corners, and the model check (built-in models beside ngspice's);
 * :mod:`~symbias.pipeline.sweeps`: output, supply and temperature sweeps with
   their metrics;
 * :mod:`~symbias.pipeline.topologies`: library listings and topology records.
@@ -28,14 +31,16 @@ Examples
 from __future__ import annotations
 
 from .bias import BiasPoint, bias_point, operating_point_of, states_of
+from .corners import CornerPoints, corner_points, model_check
 from .derivation import Derivation, DeriveRequest, DerivedQuantity, derive
 from .quantities import QUANTITY_KINDS, Quantity, default_quantities, parse_quantity
 from .sweeps import SweepRequest, SweepResult, default_output, run_sweep
-from .targets import DesignInputs, Target, design_inputs, load_target
+from .targets import MODEL_SOURCES, DesignInputs, Target, design_inputs, load_target, target_from_text
 
 __all__ = [
     "Target",
     "load_target",
+    "target_from_text",
     "DesignInputs",
     "design_inputs",
     "Quantity",
@@ -50,6 +55,10 @@ __all__ = [
     "bias_point",
     "operating_point_of",
     "states_of",
+    "MODEL_SOURCES",
+    "CornerPoints",
+    "corner_points",
+    "model_check",
     "SweepRequest",
     "SweepResult",
     "run_sweep",

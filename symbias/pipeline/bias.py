@@ -39,17 +39,20 @@ class BiasPoint:
         Symbol name -> value (device small-signal values and netlist numbers).
     inputs : DesignInputs
         What it was solved with.
+    notes : tuple of str
+        Where matched devices differ at the operating point (their shared symbols are then a poor fit).
     """
 
     point: Any
     values: Mapping[str, float]
     inputs: DesignInputs
+    notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "values", MappingProxyType(dict(self.values)))
 
     def __reduce__(self):
-        return (BiasPoint, (self.point, dict(self.values), self.inputs))
+        return (BiasPoint, (self.point, dict(self.values), self.inputs, self.notes))
 
     @property
     def temperature(self) -> float:
@@ -58,23 +61,41 @@ class BiasPoint:
 
 
 def operating_point_of(target: Target, inputs: DesignInputs):
-    """The DC operating point of a target.
+    """The DC operating point of a target, from the source ``inputs.models`` names, at its corner.
 
     Raises
     ------
     CircuitError, ConvergenceError
         From the DC solve.
+    SimulatorError
+        From ngspice, with ``models="ngspice"``.
     """
     from ..dc.operating_point import operating_point
+    from .simulation import corner_target, simulated_point
 
+    if inputs.models == "ngspice":
+        return simulated_point(target, inputs)
+    target = corner_target(target, inputs)
     return operating_point(target.circuit, inputs.process, inputs.temperature, inputs.values,
                            guess=dict(inputs.guess) or None)
 
 
 def states_of(target: Target, inputs: DesignInputs):
-    """Every DC state found from several starts (:class:`~symbias.dc.solutions.Solutions`)."""
-    from ..dc.solutions import find_solutions
+    """Every DC state found from several starts (:class:`~symbias.dc.solutions.Solutions`), built-in models only.
 
+    Raises
+    ------
+    UsageError
+        With ``models="ngspice"`` (the simulator gives one operating point).
+    """
+    from ..dc.solutions import find_solutions
+    from ..errors import UsageError
+    from .simulation import corner_target
+
+    if inputs.models != "built-in":
+        raise UsageError("--all searches DC states with the built-in models; ngspice gives one operating point",
+                         path="--models")
+    target = corner_target(target, inputs)
     return find_solutions(target.circuit, inputs.process, inputs.temperature, inputs.values)
 
 
@@ -93,9 +114,17 @@ def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions
     >>> sorted(point.values)
     ['IREF', 'beta', 'gm', 'ro', 'rpi']
     """
-    from ..linear.network import bias_values
+    import warnings
 
+    from ..errors import BiasWarning
+    from ..linear.network import bias_values, matched_spread
+
+    options = options or SmallSignalOptions()
     point = operating_point_of(target, inputs)
+    per_device = point.small_signal_values()
     numbers = dict(inputs.values)
-    numbers.update(bias_values(target.circuit, point.small_signal_values(), options or SmallSignalOptions()))
-    return BiasPoint(point, numbers, inputs)
+    numbers.update(bias_values(target.circuit, per_device, options))
+    notes = tuple(matched_spread(target.circuit, per_device, options))
+    for note in notes:
+        warnings.warn(f"{target.where}: {note}", BiasWarning, stacklevel=2)
+    return BiasPoint(point, numbers, inputs, notes)

@@ -1,8 +1,10 @@
 """A SPICE deck of a target for the sign-off simulation: numbers filled in, models resolved.
 
 Pipeline step for the simulator: a target and design inputs -> deck text.
-The deck uses the same model mapping as the ngspice checks (docs/dc.md): it
-is a starting point, and sign-off uses the foundry's models.
+The deck is :func:`symbias.simulator.deck.write_deck`'s: the netlist's own
+model cards and ``.include``/``.lib`` lines as written, flattened subcircuit
+elements under the names ngspice gives them, ``m`` as ``m``, the tolerances of
+the project's ngspice checks and a comment header saying what symbias assumed.
 
 Examples
 --------
@@ -35,14 +37,12 @@ def signoff_deck(target: Target, inputs: DesignInputs, analysis: str = "op") -> 
     CircuitError
         When a free symbol has no number.
     UsageError
-        For an unknown analysis.
+        For an unknown analysis, several corners or one the netlist's ``.lib`` files lack.
     """
-    from ..dc.reference import reference_deck
+    from ..simulator.deck import write_deck
+    from .simulation import corner_target
 
     if analysis not in ANALYSES:
         raise UsageError(f"unknown analysis {analysis!r} (choose from {', '.join(ANALYSES)})", path="--analysis")
-    header = "* written by symbias: models mapped as in docs/dc.md; sign-off needs the foundry's models"
-    text = reference_deck(target.circuit, inputs.process, inputs.temperature, inputs.values,
-                          control=ANALYSES[analysis], options="")
-    title, _, rest = text.partition("\n")
-    return f"{title}\n{header}\n{rest}"
+    return write_deck(corner_target(target, inputs).circuit, inputs.process, inputs.temperature, inputs.values,
+                      control=ANALYSES[analysis], guess=dict(inputs.guess) or None).text

@@ -20,12 +20,13 @@ Examples
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any, Mapping
 
 from ..devices.options import SmallSignalOptions
-from ..errors import AssumptionError
+from ..errors import AssumptionError, InfiniteResultError
 from .bias import BiasPoint, bias_point
 from .quantities import Quantity, default_quantities
 from .targets import DesignInputs, Target
@@ -110,6 +111,10 @@ class DerivedQuantity:
         The result at the operating point (None when not asked, or infinite).
     missing : tuple of str
         Symbols the operating point and the given values leave without a number.
+    infinite : str or None
+        For a result that is infinite (an open port): why; ``formula`` is then None.
+    approximation_error_at_bias : float or None
+        Relative error of the approximation at the operating point (with ``at_bias``).
     """
 
     quantity: Quantity
@@ -120,6 +125,8 @@ class DerivedQuantity:
     transfer_error: Any = None
     value: float | None = None
     missing: tuple[str, ...] = ()
+    infinite: str | None = None
+    approximation_error_at_bias: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -156,13 +163,18 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
     request = request or DeriveRequest()
     wanted = request.quantities or default_quantities(target)
     bias = bias_point(target, request.at_bias, request.options) if request.at_bias is not None else None
-    formulas = []
+    computed = []
     for quantity in wanted:
         function = QUANTITIES[quantity.kind][0]
-        formulas.append(function(target.circuit, *quantity.arguments, options=request.options,
-                                 backend=request.backend))
-    _check_assumptions(request, formulas)
-    results = [_extras(quantity, formula, request, bias) for quantity, formula in zip(wanted, formulas)]
+        try:
+            computed.append((quantity, function(target.circuit, *quantity.arguments, options=request.options,
+                                                backend=request.backend), None))
+        except InfiniteResultError as err:  # an open port: report it and go on with the other quantities
+            computed.append((quantity, None, err.reason))
+    _check_assumptions(request, [formula for _, formula, _ in computed if formula is not None])
+    results = [_extras(quantity, formula, request, bias) if formula is not None
+               else DerivedQuantity(quantity, None, value=math.inf, infinite=reason)
+               for quantity, formula, reason in computed]
     return Derivation(target, request, tuple(results), bias)
 
 
@@ -206,8 +218,13 @@ def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint
     except AssumptionError as err:
         raise err.located(path="--assume") from None
     value, missing = value_at(formula, bias.values) if bias is not None else (None, ())
+    at_bias = None
+    if approximation is not None and value is not None and value != 0:
+        approximate_value, _ = value_at(approximation.formula, bias.values)
+        at_bias = None if approximate_value is None else abs(approximate_value / value - 1.0)
     return DerivedQuantity(quantity, formula, approximation, rows,
-                           MappingProxyType(dict(point)) if point is not None else None, error, value, missing)
+                           MappingProxyType(dict(point)) if point is not None else None, error, value, missing,
+                           approximation_error_at_bias=at_bias)
 
 
 def _approximation(formula, request: DeriveRequest, options: dict):
@@ -249,6 +266,8 @@ def check_printable(derivation: Derivation) -> None:
     from ..limits import MAX_PRINTED_TERMS, check_terms
 
     for result in derivation.results:
+        if result.formula is None:  # an infinite result has nothing to write out
+            continue
         check_terms(sum(result.formula.nterms), MAX_PRINTED_TERMS, "MAX_PRINTED_TERMS", "writing it out in full",
                     f"the text form summarises it; or {_FEWER}",
                     derivation.target.where)

@@ -169,8 +169,12 @@ def run_sweep(target: Target, inputs: DesignInputs, request: SweepRequest,
     ('temperature', 'V(vo)')
     """
     from ..dc import sweep as dcs
+    from .simulation import corner_target
 
-    circuit = target.circuit
+    if inputs.models != "built-in":
+        raise UsageError("sweeps use the built-in models (ngspice's own .dc runs on the deck of symbias deck)",
+                         path="--models")
+    circuit = corner_target(target, inputs).circuit
     dcs.sweep_points(request.start, request.stop, request.points)  # reject an empty range before any work
     output = request.output or default_output(circuit)
     guess = dict(inputs.guess) or None

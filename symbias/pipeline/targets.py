@@ -27,7 +27,10 @@ from typing import Any, Iterable, Mapping
 from ..circuit import Circuit
 from ..errors import UsageError
 
-__all__ = ["Target", "load_target", "target_from_text", "DesignInputs", "design_inputs"]
+__all__ = ["Target", "load_target", "target_from_text", "DesignInputs", "design_inputs", "MODEL_SOURCES"]
+
+#: Where bias values come from: symbias's own device models, or ngspice with the netlist's own model cards.
+MODEL_SOURCES = ("built-in", "ngspice")
 
 
 @dataclass(frozen=True)
@@ -109,24 +112,42 @@ class DesignInputs:
         Numbers for free symbols (library defaults overridden by the caller's).
     guess : mapping of str to float
         Starting node voltages, to pick one of several DC solutions.
+    models : {"built-in", "ngspice"}
+        Source of the operating point and its small-signal values: symbias's
+        own device models, or ngspice run on the netlist's own model cards
+        (:mod:`symbias.simulator`).
+    corners : tuple of str
+        Sections of the netlist's ``.lib`` files to read instead of the ones
+        written (process corners); empty: as written.
+    keep_deck : str or None
+        Folder where the simulator's deck and output are kept for inspection.
     """
 
     process: Any = None
     temperature: float = 27.0
     values: Mapping[str, float] = field(default_factory=dict)
     guess: Mapping[str, float] = field(default_factory=dict)
+    models: str = "built-in"
+    corners: tuple[str, ...] = ()
+    keep_deck: str | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "values", MappingProxyType({k: float(v) for k, v in dict(self.values).items()}))
         object.__setattr__(self, "guess", MappingProxyType({k: float(v) for k, v in dict(self.guess).items()}))
         object.__setattr__(self, "temperature", float(self.temperature))
+        object.__setattr__(self, "corners", tuple(dict.fromkeys(str(c) for c in self.corners)))
+        if self.models not in MODEL_SOURCES:
+            raise UsageError(f"models must be one of {', '.join(MODEL_SOURCES)}, got {self.models!r}",
+                             path="--models")
 
     def __reduce__(self):
-        return (DesignInputs, (self.process, self.temperature, dict(self.values), dict(self.guess)))
+        return (DesignInputs, (self.process, self.temperature, dict(self.values), dict(self.guess), self.models,
+                               self.corners, self.keep_deck))
 
 
 def design_inputs(target: Target, process: Any = None, temperature: float = 27.0,
-                  values: Mapping[str, float] | None = None, guess: Mapping[str, float] | None = None) -> DesignInputs:
+                  values: Mapping[str, float] | None = None, guess: Mapping[str, float] | None = None, *,
+                  models: str = "built-in", corners: Iterable[str] = (), keep_deck: str | None = None) -> DesignInputs:
     """Design inputs for a target: its library defaults, then ``values``; a process given as object or path.
 
     Raises
@@ -155,7 +176,7 @@ def design_inputs(target: Target, process: Any = None, temperature: float = 27.0
     numbers.update(given)
     if process is not None and not isinstance(process, Process):
         process = load_process(process)
-    return DesignInputs(process, temperature, numbers, dict(guess or {}))
+    return DesignInputs(process, temperature, numbers, dict(guess or {}), models, tuple(corners), keep_deck)
 
 
 def _check_names(target: Target, values: Mapping[str, float]) -> None:

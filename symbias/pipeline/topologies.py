@@ -99,7 +99,8 @@ def describe(topology, derive_formulas: bool = True) -> TopologyDescription:
         return TopologyDescription(topology, None)
     target = Target(topology.circuit(), topology, topology.id)
     derivation = derive(target, DeriveRequest(options=topology.small_signal_options()))
-    return TopologyDescription(topology, derivation, tuple(_leading_order(r.formula) for r in derivation.results))
+    leading = tuple(None if r.formula is None else _leading_order(r.formula) for r in derivation.results)
+    return TopologyDescription(topology, derivation, leading)
 
 
 def _leading_order(formula):

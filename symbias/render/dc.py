@@ -59,8 +59,9 @@ def operating_point_tables(op) -> tuple[Any, Any, Any]:
 
 def operating_point_renderables(target, op) -> list[Any]:
     """Header, the three tables and the caution."""
-    header = (f"[bold]{escaped(target.title)}[/bold]  ({escaped(target.where)}, {op.temperature:g} degC, {op.method}, "
-              f"{op.iterations} iterations)")
+    steps = f", {op.iterations} iterations" if op.method != "ngspice" else " with the netlist's model cards"
+    header = (f"[bold]{escaped(target.title)}[/bold]  ({escaped(target.where)}, {op.temperature:g} degC, "
+              f"{op.method}{steps})")
     return [header, *operating_point_tables(op), f"[dim]{CAUTION}[/dim]"]
 
 

@@ -13,31 +13,115 @@ sensitivities it gains ``sensitivities`` (symbol -> simplified expression as
 a string, or the value where the formula is too large for a symbolic form)
 and ``sensitivity_values`` (symbol -> value at ``sensitivity_point``).
 
+Large results are written without ever holding their text:
+``formula_record(..., streamed=True)`` puts :class:`StreamedText` values in
+the ``exact``, ``numerator`` and ``denominator`` fields, and
+:func:`write_json` writes the record to a stream chunk by chunk, byte for
+byte what :func:`dumps` gives for the same record.
+
 Examples
 --------
+>>> import io
 >>> from symbias.netlist import parse_netlist
 >>> from symbias.analyses import output_resistance
 >>> record = formula_record(output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\n"), "a"))
 >>> record["exact"], record["symbols"]
 ('(RA)/(1)', ['RA'])
+>>> out = io.StringIO()
+>>> write_json(out, {"exact": StreamedText(lambda: iter(["(RA", ")/(1)"])), "terms": [1, 1]})
+>>> out.getvalue() == dumps({"exact": "(RA)/(1)", "terms": [1, 1]})
+True
 """
 
 from __future__ import annotations
 
 import json
 import math
+import tempfile
 from dataclasses import asdict
-from typing import Any
+from typing import Any, Callable, Iterator, TextIO
 
 from ..formula import Formula
 
-__all__ = ["formula_record", "dumps", "json_safe", "derivation_record", "operating_point_record", "states_record",
-           "sweep_record", "listing_record", "topology_record"]
+__all__ = ["formula_record", "dumps", "write_json", "StreamedText", "json_safe", "derivation_record",
+           "operating_point_record", "states_record", "sweep_record", "listing_record", "topology_record"]
+
+
+class StreamedText:
+    """A JSON string value produced chunk by chunk (a large exact result).
+
+    Parameters
+    ----------
+    chunks : callable
+        Returns a fresh iterator of text chunks each time it is called.
+    """
+
+    def __init__(self, chunks: Callable[[], Iterator[str]]):
+        self._chunks = chunks
+
+    def chunks(self) -> Iterator[str]:
+        """The text, chunk by chunk."""
+        return self._chunks()
+
+    def __str__(self) -> str:
+        return "".join(self._chunks())
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, (str, StreamedText)):
+            return str(self) == str(other)
+        return NotImplemented
+
+    __hash__ = None
+
+
+class _Spool:
+    """Numerator and denominator text of a large formula, written once.
+
+    The ``numerator`` and ``denominator`` fields repeat the text of ``exact``:
+    the first pass writes it from the terms and keeps a copy in a temporary
+    file, later passes read that file back (cheaper than writing the terms
+    again, and it holds nothing in memory).  Small formulas are just written
+    again.
+    """
+
+    #: Terms above which a polynomial's text is kept in a temporary file for reuse.
+    SPOOL_TERMS = 50_000
+
+    def __init__(self, formula: Formula):
+        self._sources = {"numerator": formula.numerator_chunks, "denominator": formula.denominator_chunks}
+        self._sizes = dict(zip(("numerator", "denominator"), formula.nterms))
+        self._files: dict[str, Any] = {}
+
+    def part(self, name: str) -> Iterator[str]:
+        spooled = self._files.get(name)
+        if spooled is not None:
+            spooled.seek(0)
+            while chunk := spooled.read(1 << 22):
+                yield chunk
+            return
+        if self._sizes[name] <= self.SPOOL_TERMS:
+            yield from self._sources[name]()
+            return
+        spool = tempfile.TemporaryFile("w+", encoding="utf-8")
+        for chunk in self._sources[name]():
+            spool.write(chunk)
+            yield chunk
+        self._files[name] = spool
+
+    def exact(self) -> Iterator[str]:
+        yield "("
+        yield from self.part("numerator")
+        yield ")/("
+        yield from self.part("denominator")
+        yield ")"
 
 
 def formula_record(formula: Formula, approximation: Any = None, sensitivities: Any = None,
-                   point: dict[str, float] | None = None) -> dict[str, Any]:
+                   point: dict[str, float] | None = None, *, streamed: bool = False) -> dict[str, Any]:
     """JSON-ready fields of a formula, its approximation and sensitivities (see the module docstring).
+
+    With ``streamed=True`` the three exact fields are :class:`StreamedText`
+    for :func:`write_json` (nothing is written out until then).
 
     Examples
     --------
@@ -50,15 +134,21 @@ def formula_record(formula: Formula, approximation: Any = None, sensitivities: A
     ('RB', 0.033, ['RA >> RB  (RA/RB in [30, 1e+04])', 'RA in [100, 100000] ohm (reference scale)'])
     """
     num_terms, den_terms = formula.nterms
-    exact = formula.exact_string()
-    numerator, denominator = exact[1:].split(")/(", 1)
+    if streamed:
+        spool = _Spool(formula)
+        exact = StreamedText(spool.exact)
+        numerator = StreamedText(lambda: spool.part("numerator"))
+        denominator = StreamedText(lambda: spool.part("denominator"))
+    else:
+        exact = formula.exact_string()
+        numerator, denominator = "".join(formula.numerator_chunks()), "".join(formula.denominator_chunks())
     record = {
         "quantity": formula.quantity,
         "label": formula.label,
         "unit": formula.unit,
         "exact": exact,
         "numerator": numerator,
-        "denominator": denominator[:-1],
+        "denominator": denominator,
         "symbols": [s.name for s in formula.symbols],
         "meanings": {name: str(meaning) for name, meaning in formula.meanings.items()},
         "assumptions": list(formula.assumptions),
@@ -114,6 +204,49 @@ def dumps(data: Any) -> str:
     return json.dumps(json_safe(data), indent=2, sort_keys=False, default=str)
 
 
+def write_json(stream: TextIO, record: Any, indent: int = 2) -> None:
+    """Write a record as JSON to a text stream, streaming :class:`StreamedText` values.
+
+    The text is the same as :func:`dumps` of the record (same indentation,
+    key order, escapes, ``str`` for other objects, infinities and NaN as
+    null); no string value is held whole.
+    """
+    _write_value(stream, json_safe(record), indent, 0)
+
+
+def _write_value(stream: TextIO, value: Any, indent: int, level: int) -> None:
+    if isinstance(value, StreamedText):
+        stream.write('"')
+        for chunk in value.chunks():
+            stream.write(chunk if _plain(chunk) else json.dumps(chunk)[1:-1])
+        stream.write('"')
+        return
+    if isinstance(value, dict) and value:
+        items = [(json.dumps({key: None})[1:-7], item) for key, item in value.items()]
+        _write_container(stream, "{", "}", items, indent, level)
+        return
+    if isinstance(value, (list, tuple)) and value:
+        _write_container(stream, "[", "]", [(None, item) for item in value], indent, level)
+        return
+    stream.write(json.dumps(value, default=str))
+
+
+def _plain(text: str) -> bool:
+    """True when JSON needs no escape in ``text`` (printable ASCII without quote or backslash)."""
+    return text.isascii() and text.isprintable() and '"' not in text and "\\" not in text
+
+
+def _write_container(stream: TextIO, opening: str, closing: str, items, indent: int, level: int) -> None:
+    inner = "\n" + " " * (indent * (level + 1))
+    stream.write(opening)
+    for number, (key, item) in enumerate(items):
+        stream.write(("," if number else "") + inner)
+        if key is not None:
+            stream.write(key + ": ")
+        _write_value(stream, item, indent, level + 1)
+    stream.write("\n" + " " * (indent * level) + closing)
+
+
 def _transfer_error_record(error) -> dict[str, Any]:
     return {
         "ideal": str(error.ideal.expr),
@@ -124,21 +257,32 @@ def _transfer_error_record(error) -> dict[str, Any]:
     }
 
 
-def derivation_record(derivation) -> dict[str, Any]:
+def derivation_record(derivation, *, streamed: bool = False) -> dict[str, Any]:
     """The JSON object of ``symbias derive``: a header and one formula record per quantity.
 
     With one quantity the record's fields sit beside the header; with several they are listed
-    under ``results``.  ``transfer_error`` and ``at_bias`` appear when asked for.
+    under ``results``.  ``transfer_error`` and ``at_bias`` appear when asked for.  With
+    ``streamed=True`` the exact fields are :class:`StreamedText` for :func:`write_json`.
     """
     records = []
     for result in derivation.results:
-        record = formula_record(result.formula, result.approximation, result.sensitivities, result.sensitivity_point)
+        if result.formula is None:
+            records.append({"quantity": result.quantity.kind, "arguments": list(result.quantity.arguments),
+                            "exact": "oo", "infinite": True, "reason": result.infinite})
+            continue
+        record = formula_record(result.formula, result.approximation, result.sensitivities, result.sensitivity_point,
+                                streamed=streamed)
         if result.transfer_error is not None:
             record["transfer_error"] = _transfer_error_record(result.transfer_error)
         if derivation.bias is not None:
             record["at_bias"] = result.value
+            if result.approximation_error_at_bias is not None:
+                record["approx_error_at_bias"] = result.approximation_error_at_bias
         records.append(record)
     header = {"circuit": derivation.target.title, "source": derivation.target.where}
+    if derivation.bias is not None:  # where the values at the operating point came from
+        header["bias_models"] = derivation.bias.inputs.models
+        header["bias_corner"] = derivation.bias.inputs.corners[0] if derivation.bias.inputs.corners else None
     if len(records) == 1:
         return {**header, **records[0]}
     return {**header, "results": records}
@@ -192,6 +336,8 @@ def topology_record(description) -> dict[str, Any]:
     for index, (result, leading) in enumerate(zip(description.derivation.results, description.leading)):
         lead = None if leading is None else {"expr": str(leading.expr), "error": float(leading.error),
                                              "assumptions": list(leading.statements)}
-        record["derived"].append({"role": "rout" if index == 0 else "transfer", **formula_record(result.formula),
-                                  "options": options, "leading_order": lead})
+        fields = formula_record(result.formula) if result.formula is not None else {
+            "quantity": result.quantity.kind, "exact": "oo", "infinite": True, "reason": result.infinite}
+        record["derived"].append({"role": "rout" if index == 0 else "transfer", **fields, "options": options,
+                                  "leading_order": lead})
     return record

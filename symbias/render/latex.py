@@ -27,12 +27,13 @@ _QUANTITY_SYMBOLS = {
     "voltage_gain": r"A_v",
     "transconductance": r"G_m",
     "transimpedance": r"Z_t",
+    "transfer_error": r"\varepsilon",
 }
 
 
 def quantity_symbol(formula: Formula) -> str:
     """LaTeX symbol of the quantity a formula gives (``R_{\\mathrm{out}}``, ``A_i`` ...)."""
-    return _QUANTITY_SYMBOLS.get(formula.quantity, r"\mathrm{" + formula.quantity.replace("_", r"\_") + "}")
+    return _QUANTITY_SYMBOLS.get(formula.quantity, "F")
 
 
 def formula_latex(formula: Formula, expression: sympy.Expr | None = None) -> str:
@@ -115,6 +116,9 @@ def derivation_latex(derivation) -> str:
     """
     lines = []
     for result in derivation.results:
+        if result.formula is None:
+            lines.append(rf"{_QUANTITY_SYMBOLS.get(result.quantity.kind, 'X')} = \infty")
+            continue
         lines.append(formula_latex(result.formula))
         if result.approximation is not None:
             lines.append(approximation_latex(result.approximation))

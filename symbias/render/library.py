@@ -62,6 +62,9 @@ def topology_renderables(description) -> list[Any]:
         out.append(variables)
     if description.derivation is not None:
         for result, leading in zip(description.derivation.results, description.leading):
+            if result.formula is None:
+                out.append(Text(f"derived {result.quantity.kind.replace('_', ' ')}: infinite ({result.infinite})"))
+                continue
             rows = []
             if leading is not None:
                 rows.append(("leading order", f"{leading.text.replace('**', '^')}   (worst error "

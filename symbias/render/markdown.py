@@ -24,7 +24,7 @@ CAUTION = f"*{_CAUTION}*"
 
 
 def formula_markdown(formula: Formula, approximation: Any = None, sensitivities: Any = None,
-                     title: str | None = None) -> str:
+                     title: str | None = None, caution: bool = True) -> str:
     """A Markdown section: exact form, approximation with assumptions and error bound, sensitivities.
 
     Examples
@@ -55,8 +55,9 @@ def formula_markdown(formula: Formula, approximation: Any = None, sensitivities:
             "- magnitude assumptions:",
         ]
         for statement in a.assumptions:
-            lines.append(f"  - ${assumption_latex(statement)}$ ({statement.describe()})")
+            lines.append(f"  - ${assumption_latex(statement)}$: {statement.describe()}")
         lines.append("")
+    lines += _symbol_table(formula)
     if formula.assumptions:
         lines += ["Model: " + "; ".join(formula.assumptions) + ".", ""]
     if sensitivities:
@@ -66,8 +67,22 @@ def formula_markdown(formula: Formula, approximation: Any = None, sensitivities:
             value = "" if row.value is None else f"{row.value:+.4g}"
             lines.append(f"| {row.symbol} | {expr} | {value} |")
         lines.append("")
-    lines.append(CAUTION)
+    if caution:
+        lines.append(CAUTION)
     return "\n".join(lines) + "\n"
+
+
+def _symbol_table(formula: Formula) -> list[str]:
+    """The symbols of a formula: name, how it is typeset, what it is and its unit."""
+    from ..symbols import latex_name
+
+    if not formula.meanings:
+        return []
+    lines = ["| symbol | | meaning | unit |", "|---|---|---|---|"]
+    for name in sorted(formula.meanings):
+        meaning = formula.meanings[name]
+        lines.append(f"| `{name}` | ${latex_name(name)}$ | {meaning.description} | {meaning.unit} |")
+    return lines + [""]
 
 
 def _latex(expr) -> str:
@@ -85,10 +100,15 @@ def derivation_markdown(derivation) -> str:
     >>> print(derivation_markdown(derive(load_target("examples/simple_mirror.cir"))).splitlines()[0])
     ## Kestrel KT-40 sensor front end: 20 uA tail sink, simple NPN mirror
     """
-    sections = [f"## {derivation.target.title}\n"]
+    sections = [f"## {derivation.target.title or derivation.target.where}\n"]
     for result in derivation.results:
-        sections.append(formula_markdown(result.formula, result.approximation, result.sensitivities))
+        if result.formula is None:
+            sections.append(f"### {result.quantity.kind.replace('_', ' ')} at {'/'.join(result.quantity.arguments)}"
+                            f"\n\nInfinite: {result.infinite}\n")
+            continue
+        sections.append(formula_markdown(result.formula, result.approximation, result.sensitivities, caution=False))
         error = result.transfer_error
         if error is not None:
-            sections.append(formula_markdown(error.exact, error.leading, title=error.exact.label))
+            sections.append(formula_markdown(error.exact, error.leading, title=error.exact.label, caution=False))
+    sections.append(CAUTION + "\n")
     return "\n".join(sections)

@@ -193,11 +193,13 @@ def python_source(formula: Formula, approximation: Any = None, name: str | None 
 def derivation_python(derivation) -> str:
     """One module: a docstring, ``import numpy``, a function per derived quantity (and its approximation).
 
-    Two quantities with the same name get ``_2``, ``_3``... so that none hides another.
+    Two quantities with the same name get ``_2``, ``_3``... so that none hides another; an infinite
+    result (an open port) has no function.
     """
     functions: list[str] = []
     taken: set[str] = set()
-    for result in derivation.results:
+    results = [r for r in derivation.results if r.formula is not None]
+    for result in results:
         base = name = function_name(result.formula)
         count = 1
         while name in taken or f"{name}_approx" in taken:
@@ -205,4 +207,4 @@ def derivation_python(derivation) -> str:
             name = f"{base}_{count}"
         taken |= {name, f"{name}_approx"}
         functions += _formula_functions(result.formula, result.approximation, name) + [""]
-    return _module([r.formula.label for r in derivation.results], functions)
+    return _module([r.formula.label for r in results], functions)

@@ -149,10 +149,22 @@ def value_text(result, temperature: float) -> str:
 
 
 def _error_rows(error) -> list[tuple[str, str]]:
-    rows = [("error 1 - gain/ideal", f"~ {error.leading.text}  (worst error "
-                                     f"{100 * error.leading.error:.3g} %; ideal {error.ideal.expr})")]
-    rows += [(f"  from {cause.name}", f"~ {cause.leading.text}") for cause in error.causes]
+    from ..readable import readable_text
+
+    rows = [("error 1 - gain/ideal", f"~ {readable_text(error.leading.expr)}  (worst error "
+                                     f"{100 * error.leading.error:.3g} %; ideal {readable_text(error.ideal.expr)})")]
+    rows += [(f"  from {cause.name}", f"~ {readable_text(cause.leading.expr)}") for cause in error.causes]
     return rows
+
+
+def _infinite_panel(result) -> Any:
+    from rich.panel import Panel
+    from rich.text import Text
+
+    kind = result.quantity.kind
+    label = f"{kind.replace('_', ' ')} at {'/'.join(result.quantity.arguments)}"
+    return Panel(Text.assemble((f"{label} = infinite\n", "bold"), result.infinite or ""),
+                 title=kind.replace("_", " "), expand=False)
 
 
 def derivation_renderables(derivation) -> list[Any]:
@@ -160,9 +172,15 @@ def derivation_renderables(derivation) -> list[Any]:
     out: list[Any] = [f"[bold]{escaped(derivation.target.title)}[/bold]  ({escaped(derivation.target.where)})"]
     bias = derivation.bias
     for result in derivation.results:
+        if result.formula is None:
+            out.append(_infinite_panel(result))
+            continue
         rows = approximation_rows(result.approximation) if result.approximation is not None else []
         if bias is not None:
-            rows.insert(0, ("at the operating point", value_text(result, bias.temperature)))
+            source = " (ngspice)" if bias.inputs.models == "ngspice" else ""
+            rows.insert(0, (f"at the operating point{source}", value_text(result, bias.temperature)))
+        if result.approximation_error_at_bias is not None:
+            rows.append(("error at the operating point", f"{100 * result.approximation_error_at_bias:.3g} %"))
         if result.transfer_error is not None:
             rows += _error_rows(result.transfer_error)
         out.append(formula_panel(result.formula, rows))

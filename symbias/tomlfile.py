@@ -1,7 +1,7 @@
-"""The text of a library file: TOML decoding with located errors, and the line of every key.
+"""TOML files (topology library, specs): decoding with located errors, and the line of every key.
 
-Lowest level of the library package (file text -> plain data and a
-:class:`KeyLines` locator); it imports nothing from symbias but the errors.
+Low level, shared by every reader of a TOML file (file text -> plain data and
+a :class:`KeyLines` locator); it imports nothing from symbias but the errors.
 ``tomllib`` gives values without positions, so :class:`KeyLines` scans the
 same text once to learn on which line each key, table header and multi-line
 string sits; the reader uses it to name the line of every problem.
@@ -28,7 +28,7 @@ from __future__ import annotations
 import re
 import tomllib
 
-from ..errors import LibraryError
+from .errors import LibraryError, SymbiasError
 
 __all__ = ["KeyLines", "read_toml"]
 
@@ -49,12 +49,12 @@ _LITERAL_STOP = re.compile("'")
 _PARTS = re.compile(rf"({_BARE})|\"((?:[^\"\\]|\\.)*)\"|'([^']*)'")
 
 
-def read_toml(text: str, path: str) -> tuple[dict, "KeyLines"]:
-    """Decode a library file's TOML text; return the data and its :class:`KeyLines`.
+def read_toml(text: str, path: str, error: type[SymbiasError] = LibraryError) -> tuple[dict, "KeyLines"]:
+    """Decode a TOML file's text; return the data and its :class:`KeyLines`.
 
     Raises
     ------
-    LibraryError
+    LibraryError (or ``error``)
         For malformed TOML, with the line ``tomllib`` reports (the last line
         when the problem is the end of the text).
     """
@@ -65,12 +65,11 @@ def read_toml(text: str, path: str) -> tuple[dict, "KeyLines"]:
         found = _AT_LINE.search(message)
         line = int(found.group(1)) if found else max(1, len(text.splitlines()))
         reason = _AT_END.sub("", _AT_LINE.sub("", message)).strip() or "malformed TOML"
-        raise LibraryError(f"TOML syntax: {reason}", path, line) from None
+        raise error(f"TOML syntax: {reason}", path, line) from None
     except RecursionError:
-        raise LibraryError("TOML syntax: arrays or inline tables nested too deep", path,
-                           KeyLines(text).deepest) from None
+        raise error("TOML syntax: arrays or inline tables nested too deep", path, KeyLines(text).deepest) from None
     except ValueError as err:  # an integer too long for Python to convert
-        raise LibraryError(f"TOML value: {str(err).split(';')[0]}", path, _line_of(_LONG_DIGITS, text)) from None
+        raise error(f"TOML value: {str(err).split(';')[0]}", path, _line_of(_LONG_DIGITS, text)) from None
     return data, KeyLines(text)
 
 
