@@ -114,6 +114,12 @@ def main(argv: list[str] | None = None, *, guard_memory: bool = False) -> int:
             raise
         print(str(out_of_memory(limit).located(place)), file=sys.stderr)
         return EXIT_USAGE
+    except ImportError as err:  # under the memory guard a library that cannot be mapped fails to import
+        if args.debug or limit is None:
+            raise
+        print(str(out_of_memory(limit, f"a library could not be loaded ({err.name or err})").located(place)),
+              file=sys.stderr)
+        return EXIT_USAGE
     except SymbiasError as err:
         if args.debug:
             raise
@@ -138,6 +144,9 @@ def _guarded(limit: int | None):
         return nullcontext()
     import numpy  # noqa: F401 - its BLAS buffers are reserved at import, before the limit is set
 
+    from .linear.polys import default_backend
+
+    default_backend()  # python-flint loaded too: short of memory, its import would fail and the slow ring be used
     return memory_guard(limit)
 
 

@@ -205,15 +205,15 @@ def memory_guard(limit: int | None) -> Iterator[None]:
         resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
 
 
-def out_of_memory(limit: int | None) -> LimitError:
-    """The one-line error for a command that ran out of memory.
+def out_of_memory(limit: int | None, what: str = "the work needs more memory than it may take") -> LimitError:
+    """The one-line error for a command that ran out of memory (``what`` says how it showed).
 
     Examples
     --------
     >>> str(out_of_memory(MEMORY_LIMIT))[:60]
-    '<input>: the work needs more than the memory limit (1.75 GiB'
+    '<input>: the work needs more memory than it may take (memory'
     """
     shown = f"{limit / 2**30:.3g} GiB" if limit else "the machine's memory"
-    return LimitError(f"the work needs more than the memory limit ({shown}); use fewer symbols (no --symbolic, a "
+    return LimitError(f"{what} (memory limit {shown}); use fewer symbols (no --symbolic, a "
                       "lower --level), numbers for free symbols, --approx on a smaller circuit, or set "
                       f"{MEMORY_VARIABLE} higher on a bigger machine")

@@ -148,21 +148,23 @@ def test_the_full_model_level_stays_within_the_limits(name):
 
 @pytest.mark.skipif(not Path("/proc/self/status").exists(), reason="the guard reads /proc")
 def test_the_memory_guard_turns_exhaustion_into_one_line(tmp_path):
-    """The console script under a 150 MiB guard: a heavy derivation ends in one line, resident memory near the limit.
+    """The console script under a 30 MiB guard: a derivation that must load sympy ends in one line, near the limit.
 
-    Run as a fresh process (as a user runs it); its own peak resident memory comes from ``wait4``.
+    Run as a fresh process (as a user runs it); its own peak resident memory comes from ``wait4``.  (Memory
+    taken inside the polynomial library cannot be reported this way: FLINT aborts on a failed allocation,
+    which is why the size limits are checked before the work; see docs/limits.md.)
     """
-    env = {**os.environ, limits.MEMORY_VARIABLE: "150M", "COLUMNS": "100"}
+    env = {**os.environ, limits.MEMORY_VARIABLE: "30M", "COLUMNS": "100"}
     with open(tmp_path / "out", "w") as out, open(tmp_path / "err", "w") as err:
-        child = subprocess.Popen([sys.executable, "-m", "symbias", "derive", str(ROOT / "examples/wilson_mirror.cir"),
-                                  "--level", "full", "--latex"], stdout=out, stderr=err, env=env, cwd=tmp_path)
+        child = subprocess.Popen([sys.executable, "-m", "symbias", "derive", str(ROOT / "examples/simple_mirror.cir"),
+                                  "--latex"], stdout=out, stderr=err, env=env, cwd=tmp_path)
         _, wait_status, usage = os.wait4(child.pid, 0)
         child.returncode = os.waitstatus_to_exitcode(wait_status)
     stderr = (tmp_path / "err").read_text()
     assert child.returncode == 2 and (tmp_path / "out").read_text() == "", stderr
     error = one_error_line(stderr)
-    assert "memory limit (0.146 GiB)" in error["cause"] and "SYMBIAS_MEMORY_LIMIT" in error["cause"]
-    assert usage.ru_maxrss < 400 * 1024, f"peak {usage.ru_maxrss} KiB under a 150 MiB guard"
+    assert "memory limit 0.0293 GiB" in error["cause"] and "SYMBIAS_MEMORY_LIMIT" in error["cause"]
+    assert usage.ru_maxrss < 200 * 1024, f"peak {usage.ru_maxrss} KiB under a 30 MiB guard"
 
 
 @pytest.mark.parametrize(("text", "size"), [("4G", 4 * 2**30), ("900M", 900 * 2**20), ("1.5GiB", None),

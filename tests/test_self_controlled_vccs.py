@@ -14,7 +14,7 @@ import pytest
 
 from symbias.analyses import output_resistance
 from symbias.circuit import validate
-from symbias.dc.reference import run_reference, simulator
+from symbias.simulator.ngspice import run_reference, simulator
 from symbias.errors import CircuitError
 from symbias.netlist import parse_netlist
 

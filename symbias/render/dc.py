@@ -47,14 +47,19 @@ def operating_point_tables(op) -> tuple[Any, Any, Any]:
         devices.add_row(
             escaped(name), dev.type, dev.region,
             engineering(dev.output_current, "A"),
-            f"{(v['vbe'] if bjt else v['vgs']):.4f}",
-            f"{(v['vce'] if bjt else v['vds']):.3f}",
-            engineering(s["gm"], "S"),
-            engineering(s["rpi"], "\u03a9") if bjt else engineering(s["gmb"], "S"),
-            engineering(s["ro"], "\u03a9"),
-            f"{(dev.limits['vcesat'] if bjt else dev.limits['vov']):.3f}",
+            _fixed(v.get("vbe" if bjt else "vgs"), 4),
+            _fixed(v.get("vce" if bjt else "vds"), 3),
+            engineering(s.get("gm"), "S"),
+            engineering(s.get("rpi"), "\u03a9") if bjt else engineering(s.get("gmb"), "S"),
+            engineering(s.get("ro"), "\u03a9"),
+            _fixed(dev.limits.get("vcesat" if bjt else "vov"), 3),  # a device in cutoff may have none
         )
     return nodes, sources, devices
+
+
+def _fixed(value, digits: int) -> str:
+    """A voltage with ``digits`` decimals, or ``-`` when the device reports none."""
+    return "-" if value is None else f"{value:.{digits}f}"
 
 
 def operating_point_renderables(target, op) -> list[Any]:
