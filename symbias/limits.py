@@ -37,7 +37,7 @@ __all__ = [
     "MAX_SWEEP_POINTS", "check_points",
     "MAX_ELEMENTS", "MAX_INCLUDE_DEPTH", "MAX_SUBCIRCUIT_DEPTH", "MAX_FILE_BYTES",
     "MAX_UNKNOWNS", "MAX_SYMBOLS", "MAX_TERM_ESTIMATE", "MAX_MINOR_STATES", "MAX_RESULT_BITS",
-    "MAX_DERIVED_TERMS", "MAX_PRINTED_TERMS", "check_terms",
+    "MAX_DERIVED_TERMS", "MAX_PRINTED_TERMS", "MAX_TYPESET_TERMS", "check_terms",
     "MEMORY_LIMIT", "MEMORY_VARIABLE", "memory_limit", "memory_guard", "out_of_memory",
     "MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING", "MAX_DEPTH",
     "MAX_LENGTH", "MAX_TERMS",
@@ -74,8 +74,10 @@ MAX_MINOR_STATES = 40_000
 MAX_RESULT_BITS = 12_000
 #: Largest exact result (numerator plus denominator terms) that --approx, --sensitivity and --mirror-error work on.
 MAX_DERIVED_TERMS = 20_000
-#: Largest exact result written out in full (JSON, LaTeX, Markdown; the text form summarises larger ones).
+#: Largest exact result written out in full (JSON, Markdown; the text form summarises larger ones).
 MAX_PRINTED_TERMS = 200_000
+#: Largest exact result typeset through the computer-algebra system (LaTeX, Python code).
+MAX_TYPESET_TERMS = 10_000
 
 # -- memory --------------------------------------------------------------------------------
 #: Memory a command may take beyond what its libraries reserve at start-up, in bytes (1.75 GiB).

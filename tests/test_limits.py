@@ -74,6 +74,10 @@ CASES = [
     ("symbolic-8-transistor-cascade", _cascade(8), ["derive", "--rout", "Vout", "--level", "full", "--symbolic"],
      "MAX_TERM_ESTIMATE"),
     ("printing-400000-terms", _cascade(6), ["derive", "--rout", "Vout", "--symbolic", "--json"], "MAX_PRINTED_TERMS"),
+    ("typesetting-14000-terms", "t\nVdd n1 0 3.3\nR2 n2 0 10k\nR3 n3 n1 100k\nQ0 n2 0 n1 QP m=3\n"
+     "M1 0 n3 n3 0 NM W=10u L=1u\nC3 0 n3 1p\nQ4 0 n2 n3 QP 2\nRx5 n2 n1 1meg\n.model QP pnp (BF=50 VAF=30)\n"
+     ".model NM nmos (VTO=0.5 KP=200u LAMBDA=0.05)\n", ["derive", "--rout", "n2", "--level", "full", "--latex"],
+     "MAX_TYPESET_TERMS"),
     ("approximating-400000-terms", _cascade(6), ["derive", "--rout", "Vout", "--symbolic", "--approx"],
      "MAX_DERIVED_TERMS"),
     ("sensitivities-of-400000-terms", _cascade(6), ["derive", "--rout", "Vout", "--symbolic", "--sensitivity"],

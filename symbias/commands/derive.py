@@ -167,8 +167,7 @@ def run(args: argparse.Namespace) -> int:
     form = output_format(args)
     target = target_of(args)
     derivation = derive(target, request_of(args, target))
-    if form != "text":
-        check_printable(derivation)
+    check_printable(derivation, form)
     if form == "json":
         from ..render.json import derivation_record, write_json
 

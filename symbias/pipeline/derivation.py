@@ -250,8 +250,12 @@ def _sensitivities(formula, request: DeriveRequest, approximation, bias: BiasPoi
     return sensitivities(formula, point), point
 
 
-def check_printable(derivation: Derivation) -> None:
-    """Refuse to write out in full an exact result beyond :data:`~symbias.limits.MAX_PRINTED_TERMS` terms.
+def check_printable(derivation: Derivation, form: str = "json") -> None:
+    """Refuse to write out in ``form`` an exact result too large for it.
+
+    JSON and Markdown write up to :data:`~symbias.limits.MAX_PRINTED_TERMS`
+    terms; LaTeX and Python, which go through sympy, up to
+    :data:`~symbias.limits.MAX_TYPESET_TERMS`; the text form summarises any size.
 
     Raises
     ------
@@ -261,15 +265,19 @@ def check_printable(derivation: Derivation) -> None:
     Examples
     --------
     >>> from symbias.pipeline.targets import load_target
-    >>> check_printable(derive(load_target("examples/simple_mirror.cir")))
+    >>> check_printable(derive(load_target("examples/simple_mirror.cir")), "latex")
     """
-    from ..limits import MAX_PRINTED_TERMS, check_terms
+    from ..limits import MAX_PRINTED_TERMS, MAX_TYPESET_TERMS, check_terms
 
+    if form == "text":
+        return
+    typeset = form in ("latex", "python")
+    limit, name = (MAX_TYPESET_TERMS, "MAX_TYPESET_TERMS") if typeset else (MAX_PRINTED_TERMS, "MAX_PRINTED_TERMS")
     for result in derivation.results:
         if result.formula is None:  # an infinite result has nothing to write out
             continue
-        check_terms(sum(result.formula.nterms), MAX_PRINTED_TERMS, "MAX_PRINTED_TERMS", "writing it out in full",
-                    f"the text form summarises it; or {_FEWER}",
+        check_terms(sum(result.formula.nterms), limit, name, f"writing it out as {form}",
+                    f"the text form summarises it{'; --json writes it' if typeset else ''}; or {_FEWER}",
                     derivation.target.where)
 
 
