@@ -23,6 +23,7 @@ drawn from one of these families:
 ``process``     the demo process file mutated (a bad ``tnom``, negative, infinite
                 or missing parameters, unknown sections, broken TOML)
 ``library``     a library topology file mutated, read by ``show``, ``derive`` and ``list``
+``spec``        the example spec file of a ranking mutated, read by the spec reader
 ``options``     a valid netlist under hostile options: sweeps (points, ranges,
                 sources), temperatures, ``--set``, ``--guess``, ``--assume``,
                 tolerances, model levels, output forms
@@ -58,7 +59,7 @@ from pathlib import Path
 from typing import Callable, Iterator
 
 from .families import (INVALID_EDITS, circuit_case, library_case, option_case, output_case, process_case, size_case,
-                       unicode_case)
+                       spec_case, unicode_case)
 from .harness import BAD_KINDS, Case, Outcome, prewarm, run_cases
 from .netlists import GOOD, SEEDS, any_command, derive_arguments, mutate, random_netlist, text_of, tweak
 
@@ -106,7 +107,8 @@ FAMILIES: dict[str, tuple[float, Family]] = {
     "unicode": (0.06, unicode_case),
     "size": (0.03, size_case),
     "process": (0.09, process_case),
-    "library": (0.07, library_case),
+    "library": (0.06, library_case),
+    "spec": (0.02, spec_case),
     "options": (0.14, option_case),
     "outputs": (0.07, output_case),
 }

@@ -23,7 +23,7 @@ from .harness import Case
 from .netlists import GOOD, PROCESS, SEEDS, TOPOLOGIES, any_command, text_of
 
 __all__ = ["INVALID_EDITS", "unicode_case", "size_case", "process_case", "library_case", "option_case",
-           "output_case", "random_circuit", "circuit_case"]
+           "output_case", "random_circuit", "circuit_case", "spec_case"]
 
 Edit = Callable[[str, random.Random], tuple]
 BAD_TEMPERATURES = ["-300", "-273.15", "1e308", "nan", "inf", "-inf", "1001", "-1e9"]
@@ -470,3 +470,28 @@ def circuit_case(rng: random.Random, index: int) -> Case:
         argv = ["derive", "deck.cir", *quantity, *extra] + rng.choice([[], ["--json"], ["--latex"],
                                                                        ["--format", "python"]])
     return Case(index, "circuits", tuple(argv), {"deck.cir": text})
+
+
+SPEC_EDITS = [
+    (r'^family = ".*"', 'family = "bogus"', "unknown family"), (r'^current = ".*?"', 'current = "5uV"', "wrong unit"),
+    (r'^current = ".*?"', 'current = "abc"', "no number"), (r'^current = ".*?"', 'current = "-5uA"', "negative current"),
+    (r"^temperature = .*", "temperature = [-300, 125]", "temperature below absolute zero"),
+    (r"^temperature = .*", "temperature = [125, -40]", "empty temperature range"),
+    (r"^temperature = .*", "temperature = [-40, nan]", "temperature nan"),
+    (r"^min = .*", "min = 5", "supply min above max"), (r"^\[block\]", "[blok]", "unknown table"),
+    (r"^sigma = .*", "sigma = = 3", "broken TOML"), (r"^area = .*", "area = -1", "negative weight"),
+    (r"^outputs = .*", "outputs = 1.5", "outputs not a whole number"), (r"^ratio = .*", 'ratio = "1%"', ""),
+    (r"^devices_max = .*", "devices_max = 8", ""), (r"^tc_max = .*", 'tc_max = "50ppm"', ""),
+]
+
+
+def spec_case(rng: random.Random, index: int) -> Case:
+    """The example spec file mutated, read by the spec reader (the ranking command's input)."""
+    from .netlists import ROOT
+
+    text = (ROOT / "examples" / "sensor_bias_spec.toml").read_text()
+    pattern, new, why = rng.choice(SPEC_EDITS)
+    content: str | bytes = re.sub(pattern, new, text, count=1, flags=re.M)
+    if rng.random() < 0.05:
+        content, why = bytes(rng.randrange(256) for _ in range(300)), "binary garbage"
+    return Case(index, "spec", ("spec.toml",), {"spec.toml": content}, invalid=why, entry="spec")
