@@ -2,7 +2,7 @@
 
 The generator and the judge live in ``tests/support`` (``adversarial``,
 ``families``, ``netlists``, ``harness``), shared with the test suite, which runs
-a 1,500-case slice of the same generator (``tests/test_fuzz_netlists.py``).
+a 1,500-case slice of the same generator (``tests/robustness/test_fuzz_netlists.py``).
 Each case runs in a forked child under the memory guard; a case is a clean
 success, a clean one-line error, or a finding (traceback, untidy error, hang
 past 20 s, crash by a signal, wrong success on input invalid on purpose, file
