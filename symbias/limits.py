@@ -75,7 +75,7 @@ MAX_RESULT_BITS = 12_000
 #: Largest exact result (numerator plus denominator terms) that --approx, --sensitivity and --mirror-error work on.
 MAX_DERIVED_TERMS = 20_000
 #: Largest exact result written out in full (JSON, Markdown; the text form summarises larger ones).
-MAX_PRINTED_TERMS = 200_000
+MAX_PRINTED_TERMS = 1_500_000
 #: Largest exact result typeset through the computer-algebra system (LaTeX, Python code).
 MAX_TYPESET_TERMS = 10_000
 
