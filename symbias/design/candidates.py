@@ -245,7 +245,7 @@ def with_numbers(circuit: Circuit, values: Mapping[str, float]) -> Circuit:
     Examples
     --------
     >>> from symbias.netlist import parse_netlist
-    >>> c = parse_netlist("t\nV1 a 0 1\nM1 a a 0 0 NM W={WN/4} L=1u\n.model NM nmos\n")
+    >>> c = parse_netlist("t\\nV1 a 0 1\\nM1 a a 0 0 NM W={WN/4} L=1u\\n.model NM nmos\\n")
     >>> float(with_numbers(c, {"WN": 1e-5}).element("M1").params["w"])
     2.5e-06
     """

@@ -45,7 +45,7 @@ Examples
 >>> process = spec_process(spec)
 >>> found = measure(mirror, spec, process, size(mirror, spec, process))
 >>> round(found["rout"].value / 1e6, 2), found["rout"].unit, found["devices"].value
-(12.54, 'ohm', 2)
+(12.02, 'ohm', 2)
 """
 
 from __future__ import annotations
@@ -140,7 +140,6 @@ def measure(candidate: Candidate, spec, process, sizing, timer: StageTimer | Non
     out["area"] = _area(candidate, process, values)
     out["supply_current"] = Metric("supply_current", _supply_current(candidate, point), "A",
                                    "operating point: current of the supply and bias sources")
-    out.update(_spectral(candidate, spec, process, values))
     return out
 
 
@@ -231,13 +230,18 @@ def _output_sweep(candidate: Candidate, spec, process, values, point, ratio: Met
     from ..dc.sweep import compliance, sweep_source
 
     top = max(spec.supply.max, 2.0 * spec.output_voltage)
-    sweep = sweep_source(candidate.circuit, candidate.output, 0.0, top, _SWEEP_POINTS, process=process,
-                         temperature=27.0, values=values, follow=point)
+    sweep, low = _sweep_down(candidate, candidate.output, top, process, values, point)
     # measured from the top of the range, where every candidate works: a cell already out of its working
     # region at the spec's output voltage shows its true headroom, not the tangent of its triode region
     found = compliance(sweep, _probe(candidate), fraction=COMPLIANCE_FRACTION, reference=top)
-    headroom = found.by_current_low if found.by_current_low is not None else 0.0
-    detail: dict[str, Any] = {"by_region": found.by_region_low, "first_device_out": found.device_low}
+    headroom = found.by_current_low if found.by_current_low is not None else low
+    starved = _starved_source(candidate, sweep, spec.supply.source_drop)
+    detail: dict[str, Any] = {"by_current": found.by_current_low, "by_region": found.by_region_low,
+                              "first_device_out": found.device_low, "by_current_source": starved,
+                              "swept_from": low}
+    if starved is not None and starved > headroom:
+        headroom = starved
+    note = "" if headroom > low or low == 0 else f"at most: the DC model does not solve below {low:.3g} V"
     if ratio is not None and ratio.value is not None:
         low = max(spec.limits.headroom_max or headroom, headroom)
         inside = (sweep.values >= low) & (sweep.values <= spec.supply.max)
@@ -247,14 +251,74 @@ def _output_sweep(candidate: Candidate, spec, process, values, point, ratio: Met
             worst = errors[np.argmax(np.abs(errors))]
             detail.update(worst_over_output_range=float(worst), output_range=[float(low), float(spec.supply.max)])
     source = f"output sweep: lowest voltage across the output within {COMPLIANCE_FRACTION:.0%} of the tangent at " \
-             f"{top:g} V"
-    return Metric("headroom", float(headroom), "V", source, detail)
+             f"{top:g} V, every current source keeping {spec.supply.source_drop:g} V"
+    return Metric("headroom", float(headroom), "V", source, detail, note)
+
+
+def _starved_source(candidate: Candidate, sweep, drop: float) -> float | None:
+    """The highest swept voltage below which a current source feeding the block keeps less than ``drop``.
+
+    An ideal current source keeps its current at any voltage; a real one (a
+    transistor from the supply) needs ``drop`` across it, so where the block
+    pushes a source's node past that, the block has lost its current.
+    Linear between sweep points; None when every source keeps its drop.
+    """
+    x = sweep.values
+    order = np.argsort(x)[::-1]  # from the top, where the block works, down
+    worst = None
+    from ..circuit import GROUND
+
+    def volts(node: str) -> np.ndarray:
+        return np.zeros_like(x) if node == GROUND else sweep.probe(f"V({node})")
+
+    for source in candidate.circuit.elements_of("I"):
+        plus, minus = source.nodes[:2]
+        across = volts(plus) - volts(minus)
+        short = across[order] < drop
+        if not short.any() or short[0]:
+            continue
+        k = int(np.argmax(short))
+        a, b = order[k - 1], order[k]
+        t = (across[a] - drop) / (across[a] - across[b]) if across[a] != across[b] else 0.0
+        edge = float(x[a] + t * (x[b] - x[a]))
+        worst = edge if worst is None else max(worst, edge)
+    return worst
+
+
+def _sweep_down(candidate: Candidate, source: str, top: float, process, values, point):
+    """A sweep of ``source`` from as low as the DC model solves up to ``top``, and where it starts.
+
+    From 0 V first; a model that cannot be solved that low (a junction forced
+    on hard by a voltage source, a Newton that does not settle) is swept again
+    from a tenth of ``top`` higher each time.  The compliance found in the
+    sweep is then exact; one not reached is at most the sweep's start.  (Each failed
+    attempt costs the solver's full set of fallbacks, so the steps are coarse.)
+
+    Raises
+    ------
+    SymbiasError
+        When no range down to half of ``top`` solves (the last failure).
+    """
+    from ..dc.sweep import sweep_source
+
+    failure: SymbiasError | None = None
+    for low in (0.0, 0.15 * top, 0.3 * top, 0.5 * top):
+        try:
+            return sweep_source(candidate.circuit, source, low, top, _SWEEP_POINTS, process=process,
+                                temperature=27.0, values=values, follow=point), low
+        except SymbiasError as err:  # tried again from higher up; the last failure is raised below
+            failure = err
+    raise failure
 
 
 def _with_formula(metric: Metric, candidate: Candidate, process, values, point) -> Metric:
     """The swept headroom with the headroom formula's value and form beside it."""
     from ..dc.headroom import headroom
 
+    if candidate.direction == "source":  # the closed form reads the output node as the source's first node
+        return Metric(metric.name, metric.value, metric.unit, metric.source,
+                      {**metric.detail, "formula": None,
+                       "formula_note": "the headroom formula covers outputs to ground (sinks) only"}, metric.note)
     try:  # the formula reads device sizes as numbers
         found = headroom(with_numbers(candidate.circuit, values), candidate.output, process, 27.0, values, op=point)
     except SymbiasError as err:  # no closed form for this circuit: the sweep stands alone and says so
@@ -271,10 +335,9 @@ def _reference_headroom(candidate: Candidate, spec, process, values, point) -> M
     supplies = candidate.topology.roles.get("supply", ())
     if not supplies:
         return Metric("headroom", None, "V", "supply sweep", note="no supply source to sweep")
-    sweep = sweep_source(candidate.circuit, supplies[0], 0.0, spec.supply.max, _SWEEP_POINTS, process=process,
-                         temperature=27.0, values=values, follow=point)
+    sweep, low = _sweep_down(candidate, supplies[0], spec.supply.max, process, values, point)
     found = compliance(sweep, _probe(candidate), fraction=COMPLIANCE_FRACTION, reference=spec.supply.max)
-    lowest = found.by_current_low if found.by_current_low is not None else 0.0
+    lowest = found.by_current_low if found.by_current_low is not None else low
     return Metric("headroom", float(lowest - output_value(candidate, point)), "V",
                   f"supply sweep: lowest supply within {COMPLIANCE_FRACTION:.0%} of the tangent at {spec.supply.max:g} "
                   f"V, less the output", {"supply": lowest})
@@ -317,8 +380,7 @@ def _supply_min(candidate: Candidate, spec, process, values, point, supplies) ->
         if need > needed:
             needed, why = need, [f"{source.name} keeps {spec.supply.source_drop:g} V across it"]
     if supplies:
-        sweep = sweep_source(candidate.circuit, supplies[0], 0.0, spec.supply.max, _SWEEP_POINTS, process=process,
-                             temperature=27.0, values=values, follow=point)
+        sweep, _ = _sweep_down(candidate, supplies[0], spec.supply.max, process, values, point)
         found = compliance(sweep, _probe(candidate), fraction=COMPLIANCE_FRACTION, reference=spec.supply.max)
         if found.by_current_low is not None and found.by_current_low > needed:
             needed, why = found.by_current_low, [f"the output stays within {COMPLIANCE_FRACTION:.0%}"]
@@ -356,38 +418,3 @@ def _supply_current(candidate: Candidate, point) -> float:
     if not sources:  # no supply (an ideal amplifier feeds the cell): every source but the outputs
         sources = [n for n in point.branch_currents if n not in candidate.outputs]
     return float(sum(abs(point.current(n)) for n in sources))
-
-
-def _spectral(candidate: Candidate, spec, process, values) -> dict[str, Metric]:
-    """Output noise and the output resistance at a frequency, where the spec asks and the analyses exist.
-
-    The hook for the noise and frequency analyses (``symbias.pipeline.noise.output_noise_density``,
-    ``symbias.pipeline.frequency.output_impedance_at``): when this build has them, their numbers are
-    measured here; otherwise the ranking says which requirements it could not check.
-    """
-    import importlib
-    import importlib.util
-
-    from ..pipeline.targets import DesignInputs
-
-    out: dict[str, Metric] = {}
-    limits = spec.limits
-    inputs = DesignInputs(process, 27.0, values)
-    wanted = (("noise", limits.noise_frequency, "noise", "output_noise_density", "A/sqrt(Hz)"),
-              ("rout_at_frequency", limits.rout_min_frequency, "frequency", "output_impedance_at", "ohm"))
-    for name, frequency, module, function, unit in wanted:
-        if frequency is None:
-            continue
-        if importlib.util.find_spec(f"symbias.pipeline.{module}") is None:
-            out[name] = Metric(name, None, unit, f"{module} analysis",
-                               note=f"not checked: this build has no {module} analysis")
-            continue
-        analysis = getattr(importlib.import_module(f"symbias.pipeline.{module}"), function)
-        try:
-            value = analysis(candidate.target(), inputs, frequency)
-        except SymbiasError as err:  # reported on the metric; the verdict counts it as failed
-            out[name] = _missing(name, unit, f"{module} analysis", err)
-            continue
-        value = math.sqrt(value) if name == "noise" else value
-        out[name] = Metric(name, value, unit, f"{module} analysis at {frequency:g} Hz")
-    return out

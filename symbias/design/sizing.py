@@ -37,7 +37,7 @@ Examples
 >>> widlar, = candidates(spec, only=["bjt-widlar-source"])
 >>> sizing = size(widlar, spec, spec_process(spec))
 >>> sizing.failure, round(sizing.values["IREF"] * 1e6, 3), round(sizing.values["RE"])
-(None, 100.0, 6023)
+(None, 100.0, 5947)
 """
 
 from __future__ import annotations
@@ -117,7 +117,7 @@ def known_quantities(candidate: Candidate, spec, process) -> dict[str, float]:
     >>> mirror, = candidates(spec, only=["bjt-simple-mirror"])
     >>> q = known_quantities(mirror, spec, spec_process(spec))
     >>> q["beta"], round(q["VBE"], 3), q["IIN"], q["VCC"]
-    (120.0, 0.667, 5e-06, 1.8)
+    (120.0, 0.679, 5e-06, 1.8)
     """
     from ..devices.temperature import thermal_voltage
 
@@ -219,12 +219,15 @@ def size(candidate: Candidate, spec, process, random_error: Callable | None = No
     how: dict[str, str] = {}
     try:
         context = known_quantities(candidate, spec, process)
+        values, how = rule_values(candidate.topology, context)  # what a failure reports: the rules' start
         values, how, point = _size_target(candidate, spec, process, context, {}, counter)
         matching = _marked(candidate.topology, "matching")
         limit = spec.limits.random_error_max
         if matching is not None and limit is not None:
             values, how, point = _size_matching(candidate, spec, process, context, values, how, point, counter,
                                                 random_error)
+        point = _surveyed(candidate, process, values, point)
+        counter[0] += 1
         _check_sources(candidate, spec, point)
     except _Unsized as err:
         return Sizing(values, how, context, str(err), counter[0])
@@ -233,22 +236,42 @@ def size(candidate: Candidate, spec, process, random_error: Callable | None = No
     return Sizing(values, how, context, None, counter[0], point)
 
 
+def _surveyed(candidate: Candidate, process, values: Mapping[str, float], point):
+    """The sized point with its survey of DC states, so that every sweep from it stays on the conducting branch.
+
+    The survey's conducting state is the sized point itself whenever the
+    sizing ended on it; otherwise (a solve from the previous step landed on a
+    state that carries less) the sized point is kept as it is.
+    """
+    from ..dc.states import conducting_point
+
+    surveyed = conducting_point(candidate.circuit, process, SIZING_TEMPERATURE, values)
+    found, sized = output_value(candidate, surveyed), output_value(candidate, point)
+    return surveyed if abs(found - sized) <= 1e-6 * max(abs(sized), 1e-30) else point
+
+
 def _check_sources(candidate: Candidate, spec, point) -> None:
-    """A current source feeding the block must have a positive drop: else the supply cannot feed it."""
+    """A current source feeding the block must have a positive drop: else the supply cannot feed it.
+
+    When the output transistor has also left its working region at the spec's output voltage, that
+    is the cause (an input node forced far up is its consequence), and it is named alone.
+    """
     nominal = spec.supply.nominal
     for source in candidate.circuit.elements_of("I"):
         plus, minus = source.nodes[:2]
         across = point.voltage(plus) - point.voltage(minus)
         if across >= 0:
             continue
+        device = _output_device(candidate, point)
         node = minus if plus in _fixed_nodes(candidate) else plus
         needed = nominal - across + spec.supply.source_drop
-        why = f"needs about {needed:.2g} V of supply: {source.name} would have {across:.2g} V across it (node " \
-              f"{node} at {point.voltage(node):.3g} V)"
-        device = _output_device(candidate, point)
         if device is not None:
-            why += f"; {device[0]} is in {device[1]} at the output voltage {spec.output_voltage:g} V"
-        raise _Unsized(why)
+            # a supply need far beyond the spec's is the forced input node's consequence, not a figure to quote
+            supply = f"; its input needs about {needed:.2g} V of supply" if needed < 2 * spec.supply.max else ""
+            raise _Unsized(f"does not work at the output voltage {spec.output_voltage:g} V: {device[0]} is in "
+                           f"{device[1]} there{supply}")
+        raise _Unsized(f"needs about {needed:.2g} V of supply: {source.name} would have {across:.2g} V across it "
+                       f"(node {node} at {point.voltage(node):.3g} V)")
 
 
 def _fixed_nodes(candidate: Candidate) -> set[str]:
@@ -400,8 +423,21 @@ def _root(residual: Callable[[float], float], u0: float, variable, candidate, ta
             raise _Unsized(_out_of_reach(variable, u0, ub + step, hb, target))
         points.append((ub + step, residual(ub + step)))
     if bracket is None:
-        raise _Unsized(f"{variable.name}: no value found in {_STEPS} steps")
+        raise _Unsized(_no_root(variable, points, target))
     return _illinois(residual, bracket, tolerance)
+
+
+def _no_root(variable, points: list[tuple[float, float]], target) -> str:
+    """Why the search found no root: the range it tried and what the residual did there."""
+    tried = sorted(points)
+    span = f"{engineering(math.exp(tried[0][0]), variable.unit or '')} to " \
+           f"{engineering(math.exp(tried[-1][0]), variable.unit or '')}"
+    low, high = min(h for _, h in points), max(h for _, h in points)
+    if target is None:
+        return f"{variable.name}: no zero temperature slope for {variable.name} from {span} (the slope stays " \
+               f"between {low * 1e6:.3g} and {high * 1e6:.3g} ppm/degC)"
+    return f"{variable.name}: the output current does not reach the target for {variable.name} from {span} " \
+           f"(it stays between {math.exp(low):.3g} and {math.exp(high):.3g} times the target)"
 
 
 def _illinois(residual, bracket, tolerance: float) -> float:

@@ -68,7 +68,6 @@ METRICS: dict[str, tuple[str, str]] = {
     "devices": ("1", "max"),
     "area": ("um^2", "max"),
     "supply_current": ("A", "max"),
-    "noise": ("A/sqrt(Hz)", "max"),
     "voltage_error": ("1", "max"),
 }
 
@@ -124,9 +123,6 @@ class Limits:
     devices_max: int | None = None
     area_max: float | None = None
     supply_current_max: float | None = None
-    noise_max: float | None = None
-    noise_frequency: float | None = None
-    rout_min_frequency: float | None = None
     voltage_error_max: float | None = None
 
 
@@ -177,9 +173,7 @@ _UNITS = {
     ("limits", "headroom_max"): "V", ("limits", "rout_min"): "ohm", ("limits", "ratio_error_max"): "1",
     ("limits", "random_error_max"): "1", ("limits", "sigma"): "", ("limits", "tc_max"): "ppm",
     ("limits", "line_sensitivity_max"): "%/V", ("limits", "devices_max"): "int", ("limits", "area_max"): "um^2",
-    ("limits", "supply_current_max"): "A", ("limits", "noise_max"): "/sqrt(Hz)",
-    ("limits", "noise_frequency"): "Hz", ("limits", "rout_min_frequency"): "Hz",
-    ("limits", "voltage_error_max"): "1",
+    ("limits", "supply_current_max"): "A", ("limits", "voltage_error_max"): "1",
     **{("sizing", name): unit for name, (_, unit) in CHOICES.items()},
 }
 _TEXT_KEYS = {("block", "family"), ("block", "technology"), ("block", "process"), ("block", "direction")}
@@ -359,6 +353,4 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     if headroom is not None and headroom >= supply["min"] and block["family"] != "reference":
         raise SpecError(f"[limits] headroom_max {headroom:g} V leaves no room below the lowest supply "
                         f"{supply['min']:g} V", where, lines.of("headroom_max", "limits"))
-    if ("noise_max" in limits) != ("noise_frequency" in limits):
-        raise SpecError("[limits] noise_max and noise_frequency go together", where, lines.of("", "limits"))
-    return Block(**block), Supply(supply["min"], supply["max"]), Limits(**limits)
+    return Block(**block), Supply(**supply), Limits(**limits)

@@ -6,8 +6,7 @@ scores, ranks).  Pure functions of plain numbers; no solving here.
 
 * :func:`check`: every requirement of the spec against its metric; a failed
   one is a :class:`Violation` with its value and limit (``headroom 0.92 V >
-  0.35 V``); a metric that could not be measured fails its requirement; a
-  requirement the build cannot check (no noise analysis) is listed apart.
+  0.35 V``); a metric that could not be measured fails its requirement.
 * :func:`pareto_fronts`: non-dominated sorting over the metrics the spec
   names (by a limit or a weight), each in its better direction.
 * :func:`scores`: the weighted mean of each metric's place between the worst
@@ -20,10 +19,10 @@ Examples
 >>> from symbias.design.metrics import Metric
 >>> spec = parse_spec('[block]\\nfamily = "current-mirror"\\ncurrent = "5u"\\n[supply]\\nmin = 1.6\\nmax = 2\\n'
 ...                   '[limits]\\nheadroom_max = "0.35V"\\nrout_min = "20meg"\\n')
->>> found, unchecked = check({"headroom": Metric("headroom", 0.92, "V", "sweep"),
+>>> found = check({"headroom": Metric("headroom", 0.92, "V", "sweep"),
 ...                           "rout": Metric("rout", 5e7, "ohm", "formula")}, spec)
->>> [v.text for v in found], unchecked
-(['headroom 0.92 V > 0.35 V'], ())
+>>> [v.text for v in found]
+['headroom 0.92 V > 0.35 V']
 """
 
 from __future__ import annotations
@@ -38,8 +37,7 @@ __all__ = ["Violation", "Requirement", "REQUIREMENTS", "check", "requirements", 
            "LOG_METRICS"]
 
 #: Metrics that span decades: their scores are placed on a log scale.
-LOG_METRICS = frozenset({"rout", "random_error", "ratio_error", "area", "supply_current", "noise", "voltage_error",
-                         "rout_at_frequency"})
+LOG_METRICS = frozenset({"rout", "random_error", "ratio_error", "area", "supply_current", "voltage_error"})
 
 
 @dataclass(frozen=True)
@@ -56,7 +54,6 @@ class Requirement:
 REQUIREMENTS = (
     Requirement("headroom_max", "headroom", "max"),
     Requirement("rout_min", "rout", "min"),
-    Requirement("rout_min", "rout_at_frequency", "min"),
     Requirement("ratio_error_max", "ratio_error", "max", absolute=True),
     Requirement("random_error_max", "random_error", "max"),
     Requirement("tc_max", "tc", "max"),
@@ -64,7 +61,6 @@ REQUIREMENTS = (
     Requirement("devices_max", "devices", "max"),
     Requirement("area_max", "area", "max"),
     Requirement("supply_current_max", "supply_current", "max"),
-    Requirement("noise_max", "noise", "max"),
     Requirement("voltage_error_max", "voltage_error", "max", absolute=True),
     Requirement("supply.min", "supply_min", "max"),
 )
@@ -141,28 +137,24 @@ def requirements(spec) -> list[tuple[Requirement, float]]:
             out.append((requirement, spec.supply.min))
             continue
         limit = getattr(spec.limits, requirement.key)
-        if limit is None or (requirement.metric == "rout_at_frequency" and spec.limits.rout_min_frequency is None):
+        if limit is None:
             continue
         out.append((requirement, float(limit)))
     return out
 
 
-def check(metrics: Mapping, spec) -> tuple[tuple[Violation, ...], tuple[str, ...]]:
-    """The violations of a candidate's metrics, and the requirements that could not be checked (with why).
+def check(metrics: Mapping, spec) -> tuple[Violation, ...]:
+    """The violations of a candidate's metrics.
 
-    A metric the candidate does not have (a ratio error for a source) is not applicable; one the build
-    cannot measure (its note starts ``not checked``) is listed as unchecked; one that failed to measure
-    is a violation.
+    A metric the candidate does not have (a ratio error for a source) is not applicable; one that
+    failed to measure (value None, its note says why) is a violation.
     """
-    found, unchecked = [], []
+    found = []
     for requirement, limit in requirements(spec):
         metric = metrics.get(requirement.metric)
         if metric is None:
             continue
         if metric.value is None:
-            if metric.note.startswith("not checked"):
-                unchecked.append(f"{requirement.key}: {metric.note}")
-                continue
             found.append(Violation(requirement.key, requirement.metric, None, limit, metric.unit, requirement.kind,
                                    metric.note))
             continue
@@ -171,7 +163,7 @@ def check(metrics: Mapping, spec) -> tuple[tuple[Violation, ...], tuple[str, ...
         if failed or math.isnan(value):
             found.append(Violation(requirement.key, requirement.metric, metric.value, limit, metric.unit,
                                    requirement.kind))
-    return tuple(found), tuple(unchecked)
+    return tuple(found)
 
 
 def objectives(spec, metric_names: Sequence[str]) -> list[tuple[str, int]]:

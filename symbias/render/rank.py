@@ -13,7 +13,7 @@ Examples
 >>> from symbias.design.rank import rank, RankRequest
 >>> ranking = rank(load_spec("examples/sensor_bias_spec.toml"), RankRequest(only=("bjt-simple-mirror",), samples=0))
 >>> text = render_to_string(rank_renderables(ranking)[0], width=160)
->>> "bjt-simple-mirror" in text and "rout [ohm]" in text
+>>> "bjt-simple-mirror" in text and "[ohm]" in text
 True
 >>> rank_record(ranking)["candidates"][0]["metrics"]["rout"]["unit"]
 'ohm'
@@ -32,8 +32,8 @@ __all__ = ["rank_renderables", "rank_record", "shown_metrics", "value_text", "ma
 #: Metrics shown as percentages (fractions in the data).
 _PERCENT = ("ratio_error", "random_error", "random_error_mc", "voltage_error")
 #: Order of the metric columns.
-_ORDER = ("headroom", "rout", "rout_at_frequency", "ratio_error", "random_error", "tc", "line_sensitivity",
-          "devices", "area", "supply_current", "noise", "voltage_error")
+_ORDER = ("voltage", "voltage_error", "headroom", "rout", "ratio_error", "random_error", "tc", "line_sensitivity",
+          "devices", "area", "supply_current")
 
 
 def shown_metrics(ranking) -> list[str]:
@@ -57,8 +57,7 @@ def column_title(metric: str, unit: str, short: bool = False) -> str:
 
 #: Column names where the table is narrow.
 _SHORT = {"ratio_error": "ratio err", "random_error": "random err", "line_sensitivity": "line",
-          "supply_current": "supply I", "supply_min": "supply min", "rout_at_frequency": "rout(f)",
-          "voltage_error": "V error"}
+          "supply_current": "supply I", "supply_min": "supply min", "voltage_error": "V error"}
 
 
 def value_text(metric) -> str:
@@ -185,8 +184,6 @@ def _notes(ranking) -> list[Any]:
     for result in failing:
         why = result.reason or "; ".join(v.text for v in result.violations)
         out.append(Text(f"  {result.id}: {why}"))
-    for note in ranking.unchecked:
-        out.append(Text(f"not checked: {note}", style="yellow"))
     mc = f"{ranking.samples} Monte Carlo samples, seed {ranking.seed}" if ranking.samples else "no Monte Carlo"
     out.append(Text(f"{len(ranking.candidates)} candidates, {mc}, {ranking.engine}, {ranking.wall:.1f} s; "
                     "margins are relative to each limit (+ inside it); random error: first order (Monte Carlo)",

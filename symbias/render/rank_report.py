@@ -33,8 +33,6 @@ def rank_markdown(ranking) -> str:
     lines += _table(ranking)
     for result in ranking.candidates:
         lines += _candidate(result, spec)
-    if ranking.unchecked:
-        lines += ["## Not checked", ""] + [f"* {note}" for note in ranking.unchecked] + [""]
     mc = f"{ranking.samples} Monte Carlo samples (seed {ranking.seed})" if ranking.samples else "no Monte Carlo run"
     lines += ["## Method", "",
               "Each candidate is sized on the DC model for the target at the nominal supply, 27 degC and the "
