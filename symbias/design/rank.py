@@ -47,7 +47,8 @@ from .sizing import size
 from .stages import StageTimer, add_times
 from .verdict import Violation, check, objectives, order, pareto_fronts, scores
 
-__all__ = ["RankRequest", "EvaluationTask", "Evaluation", "CandidateResult", "Ranking", "rank", "evaluate"]
+__all__ = ["RankRequest", "EvaluationTask", "Evaluation", "CandidateResult", "Ranking", "rank", "rank_candidates",
+           "evaluate"]
 
 Progress = Callable[[int, int, str], None]
 
@@ -284,6 +285,57 @@ def rank(spec, request: RankRequest | None = None, executor: concurrent.futures.
     seconds = add_times(*(c.seconds for c in ordered))
     return Ranking(spec, tuple(ordered), best, closest, seconds, time.perf_counter() - began,
                    request.samples, request.seed, engine)
+
+
+def rank_candidates(spec, *, library: tuple[str, ...] = (), only: tuple[str, ...] = (),
+                    samples: int = DEFAULT_SAMPLES, seed: int = 0, workers: int | None = None,
+                    scheduler: str | None = None, progress: Progress | None = None) -> Ranking:
+    """Rank the topology library against a spec: the library API behind ``symbias rank``.
+
+    Parameters
+    ----------
+    spec : Spec or str or Path
+        A spec, or the path of a spec file (``docs/spec-format.md``).
+    library : tuple of str
+        Extra topology folders, searched before the shipped library.
+    only : tuple of str
+        Rank only these topology identifiers.
+    samples : int
+        Monte Carlo samples per candidate (default 10,000; 0: the first-order random error alone).
+    seed : int
+        Seed of the mismatch samples: the same seed gives the same ranking on every engine.
+    workers : int, optional
+        Run candidates and Monte Carlo chunks in this many local processes.
+    scheduler : str, optional
+        The address of a Dask scheduler to run them on (``pip install 'symbias[distributed]'``).
+    progress : callable, optional
+        ``(done, total, what)``, called as tasks finish.
+
+    Returns
+    -------
+    Ranking
+        Frozen: every candidate's sizing, metrics (value, unit, source), violations, Pareto front,
+        score and rank; ``best``, or ``closest`` when no candidate meets the spec.
+
+    Raises
+    ------
+    SpecError, UsageError, LibraryError, ProcessError
+        For a bad spec file, an unknown ``--only`` identifier or engine, a bad library or process.
+
+    Examples
+    --------
+    >>> ranking = rank_candidates("examples/sensor_bias_spec.toml", only=("mos-simple-mirror",), samples=200)
+    >>> result = ranking.candidates[0]
+    >>> result.feasible, result.metrics["rout"].unit, [v.requirement for v in result.violations]
+    (False, 'ohm', ['rout_min'])
+    """
+    from .executors import describe, executor_for
+    from .spec import Spec, load_spec
+
+    spec = spec if isinstance(spec, Spec) else load_spec(spec)
+    request = RankRequest(tuple(library), tuple(only), samples, seed)
+    with executor_for(workers, scheduler) as executor:
+        return rank(spec, request, executor, progress, describe(workers, scheduler))
 
 
 def _run(executor, found, spec, process, request: RankRequest, report: Progress):
