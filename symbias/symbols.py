@@ -41,6 +41,11 @@ __all__ = [
     "MOS_PARAMETERS",
     "DIODE_PARAMETERS",
     "LAPLACE",
+    "THERMAL_ENERGY",
+    "CHANNEL_NOISE_FACTOR",
+    "FREQUENCY",
+    "NOISE_MEANINGS",
+    "flicker_symbol",
     "SymbolName",
     "Meaning",
     "identifier",
@@ -59,6 +64,10 @@ __all__ = [
 
 #: Name of the Laplace variable.
 LAPLACE = "s"
+#: Symbols noise densities are written in: thermal energy k*T, the MOS channel-noise factor, frequency.
+THERMAL_ENERGY = "kT"
+CHANNEL_NOISE_FACTOR = "gamma_n"
+FREQUENCY = "f"
 
 
 @dataclass(frozen=True)
@@ -284,6 +293,8 @@ def latex_name(name: str) -> str:
     >>> latex_name("lambda"), latex_name("R1"), latex_name("A_b"), latex_name("s")
     ('\\\\lambda', 'R_{1}', 'A_{b}', 's')
     """
+    if name == THERMAL_ENERGY:
+        return "kT"
     parsed = parse_symbol(name)
     if parsed.parameter is not None:
         body = PARAMETERS[parsed.parameter].latex
@@ -302,6 +313,25 @@ def latex_name(name: str) -> str:
     if len(name) > 1 and name[0].isalpha() and name[1:].isalnum():
         return f"{name[0]}_{{{name[1:]}}}"
     return _subscript(name)
+
+
+def flicker_symbol(owner: str) -> str:
+    """Name of a device's flicker-noise coefficient (its 1/f density times f, A^2).
+
+    Examples
+    --------
+    >>> flicker_symbol("X1.M2")
+    'Kf_X1_M2'
+    """
+    return f"Kf_{identifier(owner)}"
+
+
+#: What the noise symbols stand for.
+NOISE_MEANINGS = {
+    THERMAL_ENERGY: Meaning("thermal energy k*T (Boltzmann constant times temperature)", "J"),
+    CHANNEL_NOISE_FACTOR: Meaning("MOS channel thermal-noise factor (2/3 long-channel)", "1"),
+    FREQUENCY: Meaning("frequency", "Hz"),
+}
 
 
 def passive_meaning(kind: str, element: str) -> Meaning:

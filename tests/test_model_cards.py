@@ -82,8 +82,8 @@ def test_foreign_level_with_process_parameters_warns_and_names_what_is_ignored(t
 
 
 @pytest.mark.parametrize("template, card, words", [
-    (BJT, "IS=1e-16 BF=100 RB=100 IKF=10m", "model QN: IKF, RB not modelled by the bipolar model"),
-    (MOS, "VTO=0.5 KP=1e-4 TOX=10n", "model NCH: TOX not modelled by the MOS model"),
+    (BJT, "IS=1e-16 BF=100 NE=1.5 IKF=10m", "model QN: IKF, NE not modelled by the bipolar model"),
+    (MOS, "VTO=0.5 KP=1e-4 U0=400", "model NCH: U0 not modelled by the MOS model"),
     (DIODE, "IS=1e-14 IKF=1 TRS1=1e-3", "model DX: IKF, TRS1 not modelled by the diode model"),
 ])
 def test_unused_parameters_are_named_in_one_warning(tmp_path, capsys, template, card, words):

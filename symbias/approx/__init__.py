@@ -19,6 +19,8 @@ module          responsibility
 ``search``      exhaustive search over small term sets, then greedy growth,
                 with compass refinement of the worst error
 ``result``      :func:`approximate` and the :class:`Approximation` it returns
+``laplace``     results in ``s``: coefficient by coefficient, error over a
+                frequency band, dominant pole and zero in closed form
 ``arrays``      numpy helpers (single-thread products, relative errors)
 ==============  ===========================================================
 
@@ -60,6 +62,7 @@ from .magnitudes import (
     MagnitudeModel,
     magnitude_model,
 )
+from .laplace import DEFAULT_BAND, FrequencyApproximation, approximate_frequency
 from .result import DEFAULT_SAMPLES, DEFAULT_TOLERANCE, Approximation, approximate
 from .statements import (
     BETA_RANGE,
@@ -77,6 +80,9 @@ __all__ = [
     "AssumptionError",
     "MagnitudeModel",
     "Approximation",
+    "FrequencyApproximation",
+    "approximate_frequency",
+    "DEFAULT_BAND",
     "parse_assumption",
     "default_assumptions",
     "nominal_ranges",

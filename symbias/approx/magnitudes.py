@@ -8,7 +8,10 @@ completed with a reference scale (the first transconductance in [1e-5, 1e-2]
 A/V, or a resistance in [1e2, 1e5] ohm; it matters only when numbers with
 units sit in the formula) and with a wide range, [1e-2, 1e2] relative to that
 scale, for any symbol no statement covers.  Units come from
-:func:`symbias.symbols.ohm_power`.
+:func:`symbias.symbols.ohm_power`.  Capacitances (unit F, the coefficients of
+``s`` in a frequency-dependent result) have a scale of their own: the first
+one in [1e-15, 1e-11] F, the others uncovered by a statement within
+[1e-2, 1e2] of it; ``s`` itself never enters the box.
 
 A default is dropped where the user's statements already speak: on the same
 monomial, or when they determine each of its symbols (a nominal range for
@@ -46,6 +49,7 @@ __all__ = [
     "magnitude_model",
     "REFERENCE_CONDUCTANCE",
     "REFERENCE_RESISTANCE",
+    "REFERENCE_CAPACITANCE",
     "FREE_RANGE",
     "MAX_CORNERS",
 ]
@@ -53,6 +57,8 @@ __all__ = [
 #: Absolute range of the reference transconductance (A/V) and resistance (ohm).
 REFERENCE_CONDUCTANCE = (1e-5, 1e-2)
 REFERENCE_RESISTANCE = (1e2, 1e5)
+#: Absolute range of the reference capacitance (F) of a box with capacitances.
+REFERENCE_CAPACITANCE = (1e-15, 1e-11)
 #: Range of a symbol no statement covers, relative to the reference scale.
 FREE_RANGE = (1e-2, 1e2)
 #: Above this many box corners, a seeded random choice of corners is used.
@@ -275,14 +281,23 @@ def magnitude_model(
     user = [a for a in map(_statement, assumptions) if a.names <= set(names)]
     statements = user + (_open_defaults(names, user) if defaults else [])
     factors, checks, rows = _factors_and_checks(names, statements)
-    reference = _reference(names, meanings)
-    if reference is not None:
-        scale = _reference_factor(names, meanings, reference)
+    capacitances = [n for n in names if unit_of(n, meanings) == "F"]
+    reference = _reference([n for n in names if n not in capacitances], meanings)
+    scales = [_reference_factor(names, meanings, reference)] if reference is not None else []
+    if capacitances:
+        scales.append(_capacitance_reference(capacitances[0], meanings))
+    for scale in scales:
         if _independent(rows, scale.row(names)):
             factors.append(scale)
             rows.append(scale.row(names))
     for name in names:
         if not _independent(rows, _unit_row(names, name)):
+            continue
+        if name in capacitances:
+            statement = _free_factor(name, meanings, (capacitances[0], 1), capacitance=True)
+            if _independent(rows, statement.row(names)):
+                factors.append(statement)
+                rows.append(statement.row(names))
             continue
         statement = _free_factor(name, meanings, reference)
         if _independent(rows, statement.row(names)):
@@ -334,10 +349,17 @@ def _reference_factor(names: Sequence[str], meanings: Mapping[str, object], refe
     return Assumption(f"{name} in [{low:g}, {high:g}] {unit} (reference scale)", ((name, 1),), low, high, "reference")
 
 
-def _free_factor(name: str, meanings: Mapping[str, object], reference: tuple[str, int] | None) -> Assumption:
+def _capacitance_reference(name: str, meanings: Mapping[str, object]) -> Assumption:
+    """The capacitance scale of the box: the first capacitance in its absolute range."""
+    low, high = REFERENCE_CAPACITANCE
+    return Assumption(f"{name} in [{low:g}, {high:g}] F (reference scale)", ((name, 1),), low, high, "reference")
+
+
+def _free_factor(name: str, meanings: Mapping[str, object], reference: tuple[str, int] | None,
+                 capacitance: bool = False) -> Assumption:
     """A wide range for a symbol no statement covers, relative to the reference scale in its unit."""
     powers: list[tuple[str, float]] = [(name, 1.0)]
-    dim = _dimension(name, meanings)
+    dim = 1 if capacitance else _dimension(name, meanings)
     if reference is not None and dim:
         ref, ref_dim = reference
         powers.append((ref, float(-dim * ref_dim)))
@@ -381,8 +403,14 @@ def _independent(rows: list[np.ndarray], row: np.ndarray) -> bool:
         return False
     if not rows:
         return True
-    return np.linalg.matrix_rank(np.vstack(rows + [row])) > len(rows)
+    # the rank test of numpy's matrix_rank (same tolerance), without its wrapper: this runs for every statement
+    matrix = np.vstack(rows + [row])
+    singular = np.linalg.svd(matrix, compute_uv=False)
+    return int(np.sum(singular > singular[0] * max(matrix.shape) * np.finfo(float).eps)) > len(rows)
 
 
 def _parallel(a: np.ndarray, b: np.ndarray) -> bool:
-    return bool(np.any(a)) and bool(np.any(b)) and np.linalg.matrix_rank(np.vstack([a, b])) == 1
+    if not (np.any(a) and np.any(b)):
+        return False
+    # two non-zero rows are parallel when |a.b| = |a||b| (to rounding)
+    return bool(abs(float(a @ b)) >= (1 - 1e-12) * float(np.linalg.norm(a) * np.linalg.norm(b)))

@@ -21,6 +21,7 @@ import numpy as np
 
 from ..errors import AssumptionError
 from ..formula import Formula
+from ..symbols import LAPLACE
 from .magnitudes import MagnitudeModel, magnitude_model
 from .search import TermSearch
 from .statements import Assumption
@@ -178,6 +179,7 @@ def approximate(
     defaults: bool = True,
     samples: int = DEFAULT_SAMPLES,
     seed: int = 0,
+    band: tuple[float, float] | None = None,
 ) -> Approximation:
     """The simplest dominant-term form within ``tolerance`` over the assumed ranges.
 
@@ -200,14 +202,17 @@ def approximate(
     samples : int
         Random points drawn in addition to the box corners.
     seed : int
+    band : (float, float), optional
+        For a result in ``s``: the frequencies (Hz) over which the error is
+        measured (default :data:`~symbias.approx.laplace.DEFAULT_BAND`); such a
+        result is approximated coefficient by coefficient of ``s`` and a
+        :class:`~symbias.approx.laplace.FrequencyApproximation` is returned.
 
     Raises
     ------
     AssumptionError
         If no point satisfies every assumption, or for a bad tolerance or
         sample count.
-    AnalysisError
-        For frequency-dependent results.
 
     Examples
     --------
@@ -219,6 +224,11 @@ def approximate(
     """
     _check_options(tolerance, samples)
     names = [s.name for s in formula.symbols]
+    if LAPLACE in names:
+        from .laplace import DEFAULT_BAND, approximate_frequency
+
+        return approximate_frequency(formula, assumptions, tolerance=tolerance, defaults=defaults, samples=samples,
+                                     seed=seed, band=band or DEFAULT_BAND)
     nN, nD = formula.nterms
     if not names or (nN <= 1 and nD <= 1):
         # a single term (or a number) is its own approximation

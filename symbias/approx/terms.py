@@ -15,7 +15,7 @@ from ..formula import Formula
 from ..linear.numeric import evaluate_expression
 from .arrays import dot
 
-__all__ = ["TermValues"]
+__all__ = ["TermValues", "generator_logs"]
 
 _STORE_ENTRIES = 8_000_000  # term values (points x terms) kept in memory; beyond, recomputed on demand
 _CHUNK_ENTRIES = 2_000_000  # term values computed in one numpy pass
@@ -47,15 +47,8 @@ class TermValues:
         ring = formula.ring
         self.formula = formula
         self.names = tuple(names)
-        index = {n: i for i, n in enumerate(self.names)}
         ngens = len(formula.variables)
-        self.symbol_map = np.zeros((len(self.names), ngens))  # log generator = log symbols @ symbol_map
-        self.special: list[int] = []
-        for g, variable in enumerate(formula.variables):
-            if variable.power and variable.symbol in index:
-                self.symbol_map[index[variable.symbol], g] = variable.power
-            elif not variable.power:
-                self.special.append(g)
+        self.symbol_map, self.special = _symbol_map(formula, self.names)
         self.sides = []
         for poly in (formula.numerator, formula.denominator):
             terms = ring.terms(poly)
@@ -69,16 +62,7 @@ class TermValues:
 
     def generator_logs(self, logs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Log magnitude and sign of every generator at the points."""
-        glog = dot(logs, self.symbol_map)
-        gsign = np.ones_like(glog)
-        if self.special:
-            values = {n: np.exp(logs[:, i]) for i, n in enumerate(self.names)}
-            for g in self.special:
-                v = np.broadcast_to(np.asarray(evaluate_expression(self.formula.variables[g].meaning, values),
-                                               dtype=float), (len(logs),))
-                glog[:, g] = np.log(np.abs(v))
-                gsign[:, g] = np.sign(v)
-        return glog, gsign
+        return _generator_logs(self.formula, self.names, self.symbol_map, self.special, logs)
 
     def _values(self, side: int, glog: np.ndarray, gsign: np.ndarray, columns, top=None):
         """Signed term values over ``exp(top)`` (top: the largest term log per point by default)."""
@@ -151,3 +135,48 @@ class TermValues:
             if self.special:
                 special |= int(np.any(exps[list(kept[side])][:, self.special]))
         return int(used.sum()) + special
+
+
+def _symbol_map(formula: Formula, names: Sequence[str]) -> tuple[np.ndarray, list[int]]:
+    """``log generators = log symbols @ map`` for the x and 1/x generators; the others' indices."""
+    index = {n: i for i, n in enumerate(names)}
+    symbol_map = np.zeros((len(names), len(formula.variables)))
+    special: list[int] = []
+    for g, variable in enumerate(formula.variables):
+        if variable.power and variable.symbol in index:
+            symbol_map[index[variable.symbol], g] = variable.power
+        elif not variable.power:
+            special.append(g)
+    return symbol_map, special
+
+
+def _generator_logs(formula: Formula, names: Sequence[str], symbol_map: np.ndarray, special: list[int],
+                    logs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    glog = dot(logs, symbol_map)
+    gsign = np.ones_like(glog)
+    if special:
+        values = {n: np.exp(logs[:, i]) for i, n in enumerate(names)}
+        for g in special:
+            v = np.broadcast_to(np.asarray(evaluate_expression(formula.variables[g].meaning, values),
+                                           dtype=float), (len(logs),))
+            glog[:, g] = np.log(np.abs(v))
+            gsign[:, g] = np.sign(v)
+    return glog, gsign
+
+
+def generator_logs(formula: Formula, names: Sequence[str], logs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Log magnitude and sign of every ring generator of ``formula`` at points given as log symbol values.
+
+    Generators of symbols outside ``names`` (``s``) count as 1.
+
+    Examples
+    --------
+    >>> from symbias.netlist import parse_netlist
+    >>> from symbias.analyses import output_resistance
+    >>> f = output_resistance(parse_netlist("t\\nI1 0 a 1\\nR1 a 0 RA\\n"), "a")
+    >>> glog, gsign = generator_logs(f, ("RA",), np.log([[2.0]]))
+    >>> [v.name for v in f.variables], np.exp(glog).tolist()
+    (['1/RA'], [[0.5]])
+    """
+    symbol_map, special = _symbol_map(formula, tuple(names))
+    return _generator_logs(formula, tuple(names), symbol_map, special, logs)

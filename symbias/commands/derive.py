@@ -17,7 +17,7 @@ import sys
 from ..errors import UsageError
 from .common import add_bias_source_arguments, add_design_arguments, add_target_argument
 
-__all__ = ["register", "run", "request_of", "output_format"]
+__all__ = ["register", "run", "request_of", "output_format", "options_of", "band_of", "add_model_arguments"]
 
 #: Flag -> quantity kind of :mod:`symbias.pipeline.quantities`.
 _FLAGS = {
@@ -80,6 +80,10 @@ def _model_arguments(model) -> None:
     model.add_argument("--backend", choices=("flint", "sympy"), default=None, help="polynomial arithmetic")
 
 
+#: The model flags (--match, --beta, --level, ...), for the other commands that derive.
+add_model_arguments = _model_arguments
+
+
 def _approximation_arguments(approx) -> None:
     approx.add_argument("--approx", action="store_true",
                         help="dominant-term form with its worst relative error over the assumed ranges")
@@ -91,6 +95,9 @@ def _approximation_arguments(approx) -> None:
                         help="largest accepted worst relative error of --approx (default 0.10)")
     approx.add_argument("--samples", type=int, default=2000, metavar="N", help="random points for the error search")
     approx.add_argument("--seed", type=int, default=0, help="seed of the random points")
+    approx.add_argument("--band", metavar="F1,F2", default="1,1e9",
+                        help="for results in s (--capacitances): frequencies in Hz over which the approximation's "
+                             "error is measured (default 1,1e9)")
     approx.add_argument("--sensitivity", action="store_true",
                         help="normalised sensitivities (x/F) dF/dx, at the operating point with --at-bias, "
                              "else at the centre of the assumed ranges")
@@ -140,7 +147,31 @@ def request_of(args: argparse.Namespace, target):
         sensitivities=args.sensitivity,
         transfer_error=args.mirror_error,
         at_bias=inputs_of(args, target) if args.at_bias else None,
+        band=band_of(args.band, "--band"),
     )
+
+
+def band_of(text: str, flag: str) -> tuple[float, float]:
+    """``"F1,F2"`` (SPICE suffixes allowed) -> (F1, F2) in Hz.
+
+    Raises
+    ------
+    UsageError
+        Unless both are positive numbers with F1 < F2.
+
+    Examples
+    --------
+    >>> band_of("10,1meg", "--band")
+    (10.0, 1000000.0)
+    """
+    from .common import parse_assignments
+
+    first, _, second = text.partition(",")
+    numbers = parse_assignments([f"f1={first}", f"f2={second}"], flag) if second else {}
+    low, high = numbers.get("f1", 0.0), numbers.get("f2", 0.0)
+    if not 0 < low < high:
+        raise UsageError(f"expects F1,F2 with 0 < F1 < F2 (Hz), got {text!r}", path=flag)
+    return low, high
 
 
 def output_format(args: argparse.Namespace) -> str:

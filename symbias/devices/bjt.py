@@ -43,6 +43,7 @@ from typing import Mapping
 import numpy as np
 
 from .dc_context import DcStamp, DeviceStamp
+from .parasitics import AC_PARAMETERS
 from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation, pn_limit,
                         safe_exp, safe_exp_and_slope, safe_exp_slope)
@@ -387,7 +388,7 @@ def bjt_numbers(params: Mapping[str, object], celsius) -> BjtAtTemperature:
 def _stamp(model: DeviceModel, element, context) -> DcStamp:
     type_, params, tnom = context.model_parameters(element)
     review_parameters(element, context, {**params, "TNOM": tnom}, model_name="bipolar model",
-                      ranges=BJT_RANGES, modelled=(*BJT_PARAMETERS, "TNOM"), essentials=("IS",))
+                      ranges=BJT_RANGES, modelled=(*BJT_PARAMETERS, *AC_PARAMETERS["Q"], "TNOM"), essentials=("IS",))
     merged = {**BJT_DEFAULTS, **params}
     numbers = {name: merged[name] for name in ("IS", "BF", "BR", "NF", "NR", "VAF", "XTI", "EG", "XTB", "BVEBO")}
     numbers.update(TNOM=tnom, polarity=-1.0 if type_ == "pnp" else 1.0,

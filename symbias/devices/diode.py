@@ -45,6 +45,7 @@ import numpy as np
 
 from ..errors import CircuitError
 from .dc_context import DcStamp, DeviceStamp
+from .parasitics import AC_PARAMETERS
 from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import (GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, Violation, pn_critical_voltage, pn_limit,
                         safe_exp, safe_exp_slope)
@@ -244,7 +245,7 @@ def _parameters(element, context) -> tuple[str, dict, object]:
         name = _ALIASES.get(key, key)
         named[name if name in DIODE_PARAMETERS else key] = value
     review_parameters(element, context, {**named, "TNOM": tnom}, model_name="diode model",
-                      ranges=DIODE_RANGES, modelled=(*DIODE_PARAMETERS, "TNOM"))
+                      ranges=DIODE_RANGES, modelled=(*DIODE_PARAMETERS, *AC_PARAMETERS["D"], "TNOM"))
     merged.update({k: v for k, v in named.items() if k in DIODE_PARAMETERS})
     return type_, merged, tnom
 

@@ -42,6 +42,7 @@ import numpy as np
 
 from ..errors import CircuitError
 from .dc_context import DcStamp, DeviceStamp
+from .parasitics import AC_PARAMETERS
 from .review import ABOVE_ZERO_KELVIN, NON_NEGATIVE, POSITIVE, Range, review_parameters
 from .nonlinear import GMIN, ION_MIN, MAX_CURRENT, Description, DeviceModel, HeadroomRole, Violation
 from .temperature import kelvin, thermal_voltage
@@ -355,7 +356,7 @@ def mos_numbers(params: Mapping[str, object], celsius) -> MosAtTemperature:
 def _stamp(model: DeviceModel, element, context) -> DcStamp:
     type_, params, tnom = context.model_parameters(element)
     review_parameters(element, context, {**params, "TNOM": tnom}, model_name="MOS model",
-                      ranges=MOS_RANGES, modelled=(*MOS_PARAMETERS, "TNOM"), essentials=("VTO", "KP"))
+                      ranges=MOS_RANGES, modelled=(*MOS_PARAMETERS, *AC_PARAMETERS["M"], "TNOM"), essentials=("VTO", "KP"))
     merged = {**MOS_DEFAULTS, **params}
     numbers = {name: merged[name] for name in MOS_DEFAULTS}
     w, l = context.instance(element, "w", 1.0), context.instance(element, "l", 1.0)

@@ -152,6 +152,11 @@ class Formula:
     def _columns(self) -> tuple[TermColumns, TermColumns]:
         return self.ring.columns(self.numerator), self.ring.columns(self.denominator)
 
+    @property
+    def term_columns(self) -> tuple[TermColumns, TermColumns]:
+        """Numerator and denominator terms as arrays (:class:`~symbias.linear.polys.TermColumns`), read once."""
+        return self._columns
+
     @cached_property
     def _user_form(self) -> UserForm:
         return user_form(self.variables, self._columns)

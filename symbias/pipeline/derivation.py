@@ -28,6 +28,7 @@ from typing import Any, Mapping
 from ..devices.options import SmallSignalOptions
 from ..errors import AssumptionError, InfiniteResultError
 from .bias import BiasPoint, bias_point
+from .parasitics import with_parasitic_values
 from .quantities import Quantity, default_quantities
 from .targets import DesignInputs, Target
 
@@ -63,7 +64,12 @@ class DeriveRequest:
         and with ``at_bias`` the DC current ratio at the operating point and
         its error split by cause (:mod:`~symbias.pipeline.mirror_ratio`).
     at_bias : DesignInputs or None
-        Solve the DC operating point with these inputs and evaluate there.
+        Solve the DC operating point with these inputs and evaluate there
+        (capacitances and ``rb``, ``re`` from the model cards, see
+        :mod:`~symbias.pipeline.parasitics`).
+    band : (float, float)
+        For results in ``s``: the frequencies (Hz) over which the
+        approximation's error is measured.
 
     Examples
     --------
@@ -85,6 +91,7 @@ class DeriveRequest:
     sensitivities: bool = False
     transfer_error: bool = False
     at_bias: DesignInputs | None = None
+    band: tuple[float, float] = (1.0, 1e9)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "quantities", tuple(self.quantities))
@@ -169,6 +176,8 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
     request = request or DeriveRequest()
     wanted = request.quantities or default_quantities(target)
     bias = bias_point(target, request.at_bias, request.options) if request.at_bias is not None else None
+    if bias is not None:
+        bias = with_parasitic_values(target, bias, request.options)
     results = []
     for quantity in wanted:
         function = QUANTITIES[quantity.kind][0]
@@ -216,7 +225,7 @@ def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint
 def _approximation(formula, request: DeriveRequest, options: dict):
     from ..approx import approximate
 
-    return approximate(formula, request.assumptions, **options)
+    return approximate(formula, request.assumptions, band=request.band, **options)
 
 
 def _sensitivities(formula, request: DeriveRequest, approximation, bias: BiasPoint | None, options: dict):
@@ -249,9 +258,11 @@ def value_at(formula, values: Mapping[str, float]) -> tuple[float | None, tuple[
     """
     import math
 
-    missing = tuple(s.name for s in formula.symbols if s.name not in values)
+    missing = tuple(s.name for s in formula.symbols if s.name not in values and s.name != "s")
     if missing:
         return None, missing
+    if any(s.name == "s" for s in formula.symbols) and "s" not in values:
+        values = {**values, "s": 0.0}  # the value at the bias point is the low-frequency one
     number = complex(formula.evaluate(values))
     value = number.real if abs(number.imag) <= 1e-12 * abs(number) else abs(number)
     return (value if math.isfinite(value) else None), ()
