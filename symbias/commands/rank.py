@@ -6,6 +6,8 @@ Wires: arguments -> :func:`symbias.design.spec.load_spec` ->
 ``--scheduler``) -> a table (:mod:`symbias.render.rank`), JSON, a Markdown
 report (:mod:`symbias.render.rank_report`) and a trade-off plot
 (:mod:`symbias.render.tradeoff`), each file written whole or not at all.
+Exit status 0 when a candidate meets the spec, 1 when none does (the
+verdict names the closest), 2 for a bad spec or bad options.
 
 Examples
 --------
@@ -107,4 +109,4 @@ def run(args: argparse.Namespace) -> int:
         from .common import print_renderables
 
         print_renderables(rank_renderables(ranking))
-    return 0
+    return 0 if ranking.best is not None else 1  # no candidate meets the spec: the analysis found no answer

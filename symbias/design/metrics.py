@@ -140,6 +140,8 @@ def measure(candidate: Candidate, spec, process, sizing, timer: StageTimer | Non
     out["area"] = _area(candidate, process, values)
     out["supply_current"] = Metric("supply_current", _supply_current(candidate, point), "A",
                                    "operating point: current of the supply and bias sources")
+    with timer.stage("formulas"):
+        out.update(_spectral(candidate, spec, process, values))
     return out
 
 
@@ -418,3 +420,43 @@ def _supply_current(candidate: Candidate, point) -> float:
     if not sources:  # no supply (an ideal amplifier feeds the cell): every source but the outputs
         sources = [n for n in point.branch_currents if n not in candidate.outputs]
     return float(sum(abs(point.current(n)) for n in sources))
+
+
+def _spectral(candidate: Candidate, spec, process, values) -> dict[str, Metric]:
+    """Output noise density and output impedance at the spec's frequencies (only where the spec asks).
+
+    Small-signal analyses with capacitances at the operating point
+    (:func:`symbias.pipeline.noise.output_noise_density`,
+    :func:`symbias.pipeline.frequency.output_impedance_at`), on the circuit
+    with one copy of the output branch, as the output resistance.
+    """
+    limits = spec.limits
+    out: dict[str, Metric] = {}
+    if limits.noise_frequency is None and limits.rout_min_frequency is None:
+        return out
+    from ..pipeline.targets import DesignInputs
+
+    inputs = DesignInputs(process, 27.0, values)
+    target = candidate.target(candidate.formula_circuit)
+    if limits.noise_frequency is not None:
+        unit = "V/sqrt(Hz)" if candidate.family == "reference" else "A/sqrt(Hz)"
+        out["noise"] = _guarded(_noise, "noise", unit, "noise analysis", target, inputs, limits.noise_frequency, unit)
+    if limits.rout_min_frequency is not None:
+        out["rout_at_frequency"] = _guarded(_impedance, "rout_at_frequency", "ohm", "frequency analysis", target,
+                                            inputs, limits.rout_min_frequency, candidate.output)
+    return out
+
+
+def _noise(target, inputs, frequency: float, unit: str) -> Metric:
+    from ..pipeline.noise import output_noise_density
+
+    density = output_noise_density(target, inputs, frequency)
+    return Metric("noise", math.sqrt(density), unit, f"noise analysis (capacitances, every device's sources) at "
+                                                     f"{frequency:g} Hz")
+
+
+def _impedance(target, inputs, frequency: float, port: str) -> Metric:
+    from ..pipeline.frequency import output_impedance_at
+
+    return Metric("rout_at_frequency", output_impedance_at(target, inputs, frequency, port), "ohm",
+                  f"|Zout| with capacitances at {frequency:g} Hz")

@@ -69,6 +69,8 @@ METRICS: dict[str, tuple[str, str]] = {
     "area": ("um^2", "max"),
     "supply_current": ("A", "max"),
     "voltage_error": ("1", "max"),
+    "noise": ("A/sqrt(Hz)", "max"),
+    "rout_at_frequency": ("ohm", "min"),
 }
 
 _NUMBER = re.compile(r"\s*([+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)\s*(\S*)\s*", re.ASCII)
@@ -124,6 +126,9 @@ class Limits:
     area_max: float | None = None
     supply_current_max: float | None = None
     voltage_error_max: float | None = None
+    noise_max: float | None = None
+    noise_frequency: float | None = None
+    rout_min_frequency: float | None = None
 
 
 @dataclass(frozen=True)
@@ -174,6 +179,7 @@ _UNITS = {
     ("limits", "random_error_max"): "1", ("limits", "sigma"): "", ("limits", "tc_max"): "ppm",
     ("limits", "line_sensitivity_max"): "%/V", ("limits", "devices_max"): "int", ("limits", "area_max"): "um^2",
     ("limits", "supply_current_max"): "A", ("limits", "voltage_error_max"): "1",
+    ("limits", "noise_max"): "/sqrt(Hz)", ("limits", "noise_frequency"): "Hz", ("limits", "rout_min_frequency"): "Hz",
     **{("sizing", name): unit for name, (_, unit) in CHOICES.items()},
 }
 _TEXT_KEYS = {("block", "family"), ("block", "technology"), ("block", "process"), ("block", "direction")}
@@ -284,11 +290,12 @@ def _from_text(text: str, unit: str, what: str, where: str, line: int) -> float:
     number, tail = Fraction(match.group(1)), match.group(2).lower()
     if unit == "1" and tail == "%":
         return float(number / 100)
-    expected = {"1": "", "int": "", "ppm": "ppm", "%/V": "%/v"}.get(unit, unit.lower())
-    if tail in (expected, ""):
+    expected = {"1": ("",), "int": ("",), "ppm": ("ppm",), "%/V": ("%/v",),
+                "/sqrt(Hz)": ("a/sqrt(hz)", "v/sqrt(hz)")}.get(unit, (unit.lower(),))
+    if tail in (*expected, ""):
         return float(number)
     for prefix, scale in sorted(SUFFIXES.items(), key=lambda kv: -len(kv[0])):
-        if prefix != "mil" and tail.startswith(prefix) and tail[len(prefix):] in (expected, ""):
+        if prefix != "mil" and tail.startswith(prefix) and tail[len(prefix):] in (*expected, ""):
             return float(number * scale)
     shown = {"1": "a plain number or %", "int": "a whole number", "": "a plain number"}.get(unit, unit)
     raise SpecError(f"{what}: wrong unit in {text!r} (expected {shown})", where, line)
@@ -353,4 +360,7 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     if headroom is not None and headroom >= supply["min"] and block["family"] != "reference":
         raise SpecError(f"[limits] headroom_max {headroom:g} V leaves no room below the lowest supply "
                         f"{supply['min']:g} V", where, lines.of("headroom_max", "limits"))
+    if ("noise_max" in limits) != ("noise_frequency" in limits):
+        raise SpecError("[limits] noise_max and noise_frequency go together (a density at a frequency)", where,
+                        lines.of("noise_max" if "noise_max" in limits else "noise_frequency", "limits"))
     return Block(**block), Supply(**supply), Limits(**limits)

@@ -37,7 +37,8 @@ __all__ = ["Violation", "Requirement", "REQUIREMENTS", "check", "requirements", 
            "LOG_METRICS"]
 
 #: Metrics that span decades: their scores are placed on a log scale.
-LOG_METRICS = frozenset({"rout", "random_error", "ratio_error", "area", "supply_current", "voltage_error"})
+LOG_METRICS = frozenset({"rout", "random_error", "ratio_error", "area", "supply_current", "voltage_error", "noise",
+                         "rout_at_frequency"})
 
 
 @dataclass(frozen=True)
@@ -54,6 +55,7 @@ class Requirement:
 REQUIREMENTS = (
     Requirement("headroom_max", "headroom", "max"),
     Requirement("rout_min", "rout", "min"),
+    Requirement("rout_min", "rout_at_frequency", "min"),
     Requirement("ratio_error_max", "ratio_error", "max", absolute=True),
     Requirement("random_error_max", "random_error", "max"),
     Requirement("tc_max", "tc", "max"),
@@ -61,6 +63,7 @@ REQUIREMENTS = (
     Requirement("devices_max", "devices", "max"),
     Requirement("area_max", "area", "max"),
     Requirement("supply_current_max", "supply_current", "max"),
+    Requirement("noise_max", "noise", "max"),
     Requirement("voltage_error_max", "voltage_error", "max", absolute=True),
     Requirement("supply.min", "supply_min", "max"),
 )

@@ -33,7 +33,7 @@ __all__ = ["rank_renderables", "rank_record", "shown_metrics", "value_text", "ma
 _PERCENT = ("ratio_error", "random_error", "random_error_mc", "voltage_error")
 #: Order of the metric columns.
 _ORDER = ("voltage", "voltage_error", "headroom", "rout", "ratio_error", "random_error", "tc", "line_sensitivity",
-          "devices", "area", "supply_current")
+          "devices", "area", "supply_current", "noise", "rout_at_frequency")
 
 
 def shown_metrics(ranking) -> list[str]:
@@ -57,7 +57,7 @@ def column_title(metric: str, unit: str, short: bool = False) -> str:
 
 #: Column names where the table is narrow.
 _SHORT = {"ratio_error": "ratio err", "random_error": "random err", "line_sensitivity": "line",
-          "supply_current": "supply I", "supply_min": "supply min", "voltage_error": "V error"}
+          "supply_current": "supply I", "supply_min": "supply min", "voltage_error": "V error", "rout_at_frequency": "rout(f)"}
 
 
 def value_text(metric) -> str:
