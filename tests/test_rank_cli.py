@@ -161,3 +161,15 @@ def test_seed_changes_the_monte_carlo_only(serial):
     first, second = serial.candidate(PAIR[0]).metrics, other.candidate(PAIR[0]).metrics
     assert first["random_error"].value == second["random_error"].value
     assert first["random_error_mc"].value != second["random_error_mc"].value
+
+
+def test_every_example_of_the_spec_format_reads():
+    import re
+
+    from symbias.design.spec import parse_spec
+
+    text = (ROOT / "docs" / "spec-format.md").read_text()
+    blocks = re.findall(r"```toml\n(.*?)```", text, re.S)
+    assert len(blocks) == 3
+    families = {parse_spec(block, "docs/spec-format.md").block.family for block in blocks}
+    assert families == {"current-mirror", "current-source", "reference"}
