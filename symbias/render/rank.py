@@ -49,6 +49,8 @@ def shown_metrics(ranking) -> list[str]:
 def column_title(metric: str, unit: str, short: bool = False) -> str:
     """``headroom [V]``, ``random error [%]`` (``short``: an abbreviated name over the unit, for narrow columns)."""
     shown = "%" if metric in _PERCENT else unit
+    if short and shown == "ppm/degC":
+        shown = "ppm/K"  # the same number (a temperature difference), in a narrow column
     name = _SHORT.get(metric, metric.replace("_", " ")) if short else metric.replace("_", " ")
     if shown in ("1", ""):
         return name
@@ -67,8 +69,10 @@ def value_text(metric) -> str:
         return "-"
     if metric.name in _PERCENT:
         return f"{100 * value:.3g}"
-    if metric.unit in ("V", "ppm/degC", "%/V"):
-        return f"{value:.3g}"
+    if metric.unit in ("V", "ppm/degC", "%/V"):  # compact: a column is six characters wide
+        if abs(value) >= 1000:
+            return f"{value:,.0f}"
+        return f"{value:.2g}" if 0 < abs(value) < 0.01 else f"{value:.3g}"
     if metric.unit == "um^2":
         return f"{value:,.0f}"
     if metric.unit == "1":
@@ -120,11 +124,14 @@ def rank_renderables(ranking) -> list[Any]:
     spec = ranking.spec
     metrics = shown_metrics(ranking)
     units = {m: next(c.metrics[m].unit for c in ranking.candidates if m in c.metrics) for m in metrics}
-    table = Table(title=_title(ranking), title_justify="left", show_lines=True, padding=(0, 1))
-    table.add_column("rank", no_wrap=True)
-    table.add_column("candidate", overflow="fold", max_width=34)
+    table = Table(title=_title(ranking), title_justify="left", show_lines=True, padding=(0, 1), collapse_padding=True,
+                  pad_edge=False)
+    # identifiers whole, on one line, the verdict under each: the metric columns give way first
+    longest = max((len(c.id) for c in ranking.candidates), default=9)
+    table.add_column("candidate\nverdict", no_wrap=True, min_width=min(longest, 40))
     for m in metrics:
-        table.add_column(Text(column_title(m, units[m], short=True)), justify="right", no_wrap=True)
+        title = column_title(m, units[m], short=True)
+        table.add_column(Text(title), justify="right", min_width=max(6, *(len(w) for w in title.split())))
     for result in ranking.candidates:
         mc = result.metrics.get("random_error_mc")
         cells = []
@@ -133,7 +140,9 @@ def rank_renderables(ranking) -> list[Any]:
             if m == "random_error" and mc is not None and mc.value is not None:
                 cell = _with_mc(cell, mc)
             cells.append(cell)
-        table.add_row(_verdict(result), result.id, *cells)
+        name = Text(result.id + "\n")
+        name.append_text(_verdict(result))
+        table.add_row(name, *cells)
     return [table, *_notes(ranking)]
 
 
@@ -142,7 +151,7 @@ def _verdict(result) -> Any:
     from rich.text import Text
 
     if result.feasible:
-        return Text(str(result.rank), style="bold green")
+        return Text(f"rank {result.rank}", style="bold green")
     if result.metrics:
         return Text("fails", style="red")
     return Text("excluded" if "spec asks" in (result.reason or "") else "unsized", style="yellow")
