@@ -53,6 +53,7 @@ from types import MappingProxyType
 from typing import Mapping
 
 from .errors import ProcessError
+from .limits import temperature_problem
 
 __all__ = [
     "Process",
@@ -264,7 +265,7 @@ def parse_process(text: str, path: str | None = None) -> Process:
     if "tnom" not in header:
         raise ProcessError("[process] has no 'tnom' (nominal temperature, degC)", path=path,
                            line=locate.section("process"))
-    tnom = _number(header["tnom"], "tnom", path, locate.key("process", "tnom"))
+    tnom = _parameter("TNOM", header["tnom"], path, locate.key("process", "tnom"))
     devices = {}
     for name, body in _table(data, "devices", path, locate).items():
         devices[name.lower()] = _device(name, body, path, locate)
@@ -350,6 +351,8 @@ def _resistor(name: str, body: dict, path: str | None, locate: "_Locator") -> Re
 
 def _parameter(key: str, value, path: str | None, line: int | None) -> float:
     number = _number(value, key, path, line)
+    if key == "TNOM" and temperature_problem(number) is not None:
+        raise ProcessError(f"TNOM: {temperature_problem(number)}", path=path, line=line)
     if number < 0 and key not in SIGNED:
         raise ProcessError(f"parameter {key} must not be negative, got {value}", path=path, line=line)
     return number
@@ -359,8 +362,8 @@ def _number(value, key: str, path: str | None, line: int | None) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ProcessError(f"parameter {key} must be a number, got {value!r}", path=path, line=line)
     number = float(value)
-    if math.isnan(number):
-        raise ProcessError(f"parameter {key} is not a number (nan)", path=path, line=line)
+    if not math.isfinite(number):
+        raise ProcessError(f"parameter {key} is not a finite number ({number})", path=path, line=line)
     return number
 
 

@@ -19,11 +19,33 @@ from typing import Any
 
 from ..symbols import engineering  # written once, beside the units; shown from here
 
-__all__ = ["CAUTION", "terminal_console", "render_to_string", "engineering", "ratio_text"]
+__all__ = ["CAUTION", "terminal_console", "render_to_string", "engineering", "ratio_text", "escaped", "SHOWN"]
+
+#: Longest name or title shown in a table or header (the JSON output keeps every character).
+SHOWN = 200
 
 #: The caution every output carries: results are design aids.
 CAUTION = ("Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
            "circuits follow local codes and licensed practice.")
+
+def escaped(text: object, limit: int | None = SHOWN) -> str:
+    """Text from a netlist or a file, made safe inside rich markup and shortened to ``limit`` characters.
+
+    A title like ``[/bold]`` would otherwise be read as markup (and refused
+    by rich), and a 100,000-character name would take minutes to wrap.
+
+    Examples
+    --------
+    >>> escaped("a [/bold] title"), escaped("x" * 300, 10)
+    ('a \\\\[/bold] title', 'xxxxxxx...')
+    """
+    from rich.markup import escape
+
+    shown = str(text)
+    if limit is not None and len(shown) > limit:
+        shown = shown[: limit - 3] + "..."
+    return escape(shown)
+
 
 def ratio_text(value: float | None) -> str:
     """A dimensionless ratio without an SI prefix (``0.98347``).
