@@ -24,7 +24,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["rank_renderables", "rank_record", "shown_metrics", "value_text", "margin", "column_title",
            "render_to_string"]
@@ -124,7 +124,7 @@ def rank_renderables(ranking) -> list[Any]:
     spec = ranking.spec
     metrics = shown_metrics(ranking)
     units = {m: next(c.metrics[m].unit for c in ranking.candidates if m in c.metrics) for m in metrics}
-    table = Table(title=_title(ranking), title_justify="left", show_lines=True, padding=(0, 1), collapse_padding=True,
+    table = Table(title=escaped(_title(ranking)), title_justify="left", show_lines=True, padding=(0, 1), collapse_padding=True,
                   pad_edge=False)
     # identifiers whole, on one line, the verdict under each: the metric columns give way first
     longest = max((len(c.id) for c in ranking.candidates), default=9)
