@@ -18,7 +18,7 @@ import pytest
 import symbias
 from symbias.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 EXAMPLE = str(ROOT / "examples" / "sensor_bias_spec.toml")
 PAIR = ("mos-wide-swing-cascode-mirror", "mos-simple-mirror")
 METRIC_NAMES = {"headroom", "rout", "ratio_error", "random_error", "tc", "line_sensitivity", "devices", "area",
