@@ -109,4 +109,7 @@ def run(args: argparse.Namespace) -> int:
         from .common import print_renderables
 
         print_renderables(rank_renderables(ranking))
-    return 0 if ranking.best is not None else 1  # no candidate meets the spec: the analysis found no answer
+    if ranking.best is None:  # the analysis found no answer: say so in the one error line, as every command does
+        print(f"{args.spec}: {ranking.verdict}", file=sys.stderr)
+        return 1
+    return 0

@@ -73,6 +73,8 @@ def test_impossible_spec_names_the_closest_candidate(tmp_path):
     assert done.returncode == 1
     assert "no candidate meets the spec; closest: mos-wide-swing-cascode-mirror (rout" in " ".join(done.stdout.split())
     assert "Traceback" not in done.stderr
+    error = [line for line in done.stderr.splitlines() if line.strip()]
+    assert len(error) == 1 and error[0].startswith(f"{spec}: no candidate meets the spec; closest: "), error
 
 
 BAD_SPECS = [

@@ -503,16 +503,39 @@ SPEC_EDITS = [
     (r"^sigma = .*", "sigma = = 3", "broken TOML"), (r"^area = .*", "area = -1", "negative weight"),
     (r"^outputs = .*", "outputs = 1.5", "outputs not a whole number"), (r"^ratio = .*", 'ratio = "1%"', ""),
     (r"^devices_max = .*", "devices_max = 8", ""), (r"^tc_max = .*", 'tc_max = "50ppm"', ""),
+    (r"^rout_min = .*", 'rout_min = "1meg"', ""), (r"^outputs = .*", "outputs = 1", ""),
+    (r"^random_error_max = .*", 'random_error_max = "5%"', ""), (r"^technology = .*", 'technology = "bjt"', ""),
+    (r"^current = .*", 'current = "1e-15"', ""), (r"^current = .*", 'current = "1"', ""),
+    (r"^\[weights\]", "[weights]\nbogus = 1", "unknown weight"), (r"^\[supply\]", "[supply]\nnominal = 9", ""),
+    (r"^supply_current_max = .*", "", ""), (r"^\[limits\]", "", "limits outside their table"),
+]
+
+
+#: Candidates of the example spec's family (current mirrors, any technology), cheap enough to rank in a case.
+SPEC_CANDIDATES = ("mos-simple-mirror", "bjt-simple-mirror", "mos-wide-swing-cascode-mirror", "bjt-wilson-mirror")
+
+#: Options of ``rank`` with why they are invalid ("" when they may be valid).
+RANK_OPTIONS = [
+    ([], ""), (["--json"], ""), (["--samples", "0"], ""), (["--samples", "-1"], "negative sample count"),
+    (["--samples", "abc"], "sample count not a number"), (["--samples", "99999999999"], "past the sample limit"),
+    (["--seed", "abc"], "seed not a number"), (["--workers", "0"], "no workers"), (["--only", "NOPE"], "unknown id"),
+    (["--only", "brokaw-bandgap"], "a reference for a mirror spec"), (["--library", "nodir"], "missing library"),
+    (["--markdown", "nodir/r.md"], "missing folder"), (["--markdown", "r.txt"], "wrong suffix"),
+    (["--plot", "p.txt"], "wrong suffix"), (["--plot", "sub"], "a folder"), (["--scheduler", "nohost:1"], "no cluster"),
 ]
 
 
 def spec_case(rng: random.Random, index: int) -> Case:
-    """The example spec file mutated, read by the spec reader (the ranking command's input)."""
+    """The example spec file mutated, or hostile options, ranked by ``symbias rank`` on one or two candidates."""
     from .netlists import ROOT
 
     text = (ROOT / "examples" / "sensor_bias_spec.toml").read_text()
-    pattern, new, why = rng.choice(SPEC_EDITS)
+    pattern, new, why = rng.choice(SPEC_EDITS) if rng.random() < 0.7 else ("^$", "", "")
     content: str | bytes = re.sub(pattern, new, text, count=1, flags=re.M)
     if rng.random() < 0.05:
         content, why = bytes(rng.randrange(256) for _ in range(300)), "binary garbage"
-    return Case(index, "spec", ("spec.toml",), {"spec.toml": content}, invalid=why, entry="spec")
+    only = rng.sample(SPEC_CANDIDATES, rng.choice([1, 1, 2]))
+    options, bad = rng.choice(RANK_OPTIONS) if rng.random() < 0.5 else ([], "")
+    argv = ["rank", "spec.toml", "--samples", "50", *(a for name in only for a in ("--only", name)), *options]
+    files = {"spec.toml": content, "sub/": b""}
+    return Case(index, "spec", tuple(argv), files, invalid=why or bad)
