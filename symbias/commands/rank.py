@@ -89,11 +89,10 @@ def run(args: argparse.Namespace) -> int:
     with executor_for(args.workers, args.scheduler) as executor, context:
         ranking = rank(spec, request, executor, callback, describe(args.workers, args.scheduler))
     if args.plot:
-        from ..render.files import write_atomic
+        from ..render.files import write_figure
         from ..render.tradeoff import tradeoff_plot
 
-        kind = args.plot.rsplit(".", 1)[1].lower()
-        write_atomic(args.plot, lambda temporary: tradeoff_plot(ranking, temporary, kind), "--plot")
+        write_figure(args.plot, lambda temporary, kind: tradeoff_plot(ranking, temporary, kind))
     if args.markdown:
         from ..render.files import write_text
         from ..render.rank_report import rank_markdown

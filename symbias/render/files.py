@@ -27,7 +27,7 @@ from typing import Callable, Iterable
 
 from ..errors import OutputError
 
-__all__ = ["check_destination", "write_atomic", "write_text"]
+__all__ = ["check_destination", "write_atomic", "write_text", "write_figure"]
 
 
 def check_destination(path: str | Path, suffixes: Iterable[str] | None = None, option: str = "--output") -> Path:
@@ -117,3 +117,21 @@ def write_text(path: str | Path, text: str, option: str = "--output") -> None:
             os.fsync(stream.fileno())
 
     write_atomic(path, write, option)
+
+
+def write_figure(path: str | Path, draw: Callable[[Path, str], None], option: str = "--plot") -> None:
+    """Write a figure atomically in the format its suffix names: ``draw(temporary_path, kind)``.
+
+    ``kind`` is the suffix in lower case (``png``, ``svg``, ``pdf``); the
+    caller has checked it with :func:`check_destination` before any work.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> write_figure(folder / "f.SVG", lambda temporary, kind: temporary.write_text(kind))
+    >>> (folder / "f.SVG").read_text()
+    'svg'
+    """
+    kind = str(path).rsplit(".", 1)[1].lower()
+    write_atomic(path, lambda temporary: draw(temporary, kind), option)
