@@ -47,6 +47,7 @@ from .fields import (
     check_year,
 )
 from ..tomlfile import KeyLines, read_toml
+from .schematic import read_schematic
 from .topology import ExpectedFormula, Reference, Topology, Variable, netlist_circuit, remember_circuit
 
 __all__ = ["parse_topology", "load_topology", "identifier_line", "CACHE_SIZE"]
@@ -68,6 +69,7 @@ _ROOT_KEYS = {
     "variables": (False, list, "an array of tables [[variables]]"),
     "references": (True, list, "an array of tables [[references]]"),
     "formulas": (False, list, "an array of tables [[formulas]]"),
+    "schematic": (False, dict, "a table [schematic]"),
 }
 _ROLE_KEYS = {
     "input": (False, str, "an element name"),
@@ -189,6 +191,10 @@ def _parse_kept(text: str, path: str | None) -> Topology:
     _check_variables_cover_netlist(circuit, variables, lines, where)
     with _at(where, lines.of("options")):
         options = check_options(data.get("options", {}))
+    schematic = None
+    if "schematic" in data:
+        with _at(where, lines.headers.get(("schematic", None)) or lines.of("schematic")):
+            schematic = read_schematic(data["schematic"], circuit, lines)
     with _at(where, 1):
         topology = Topology(
             id=data["id"],
@@ -205,6 +211,7 @@ def _parse_kept(text: str, path: str | None) -> Topology:
             options=options,
             path=path,
             netlist_line=netlist_line,
+            schematic=schematic,
         )
     return remember_circuit(topology, circuit)
 
