@@ -23,7 +23,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-__all__ = ["GRID", "SchematicLines", "schematic_lines", "draw_schematic", "save_schematic", "bulk_notes"]
+__all__ = ["GRID", "SchematicLines", "schematic_lines", "draw_schematic", "save_schematic"]
 
 #: Grid step in schemdraw units (a resistor is 3 long).
 GRID = 2.5
@@ -95,7 +95,7 @@ def _pin_nodes(element) -> dict[str, str]:
     if element.kind == "Q":
         return {"collector": n[0], "base": n[1], "emitter": n[2]}
     if element.kind == "M":
-        return {"drain": n[0], "gate": n[1], "source": n[2]}  # the bulk is named in the caption (bulk_notes)
+        return {"drain": n[0], "gate": n[1], "source": n[2]}  # the note names a bulk not at its source
     if element.kind == "E":
         return {"out": n[0], "vs": n[1], "in2": n[2], "in1": n[3]}
     return {"start": n[0], "end": n[1]}
@@ -167,11 +167,6 @@ def _inside(point, a, b) -> bool:
     if y1 == y2 == y:
         return min(x1, x2) < x < max(x1, x2)
     return False
-
-
-def bulk_notes(circuit) -> tuple[str, ...]:
-    """MOS bulks the drawing leaves out because they are not tied to their source: ``M3 bulk at 0``."""
-    return tuple(f"{e.name} bulk at {e.nodes[3]}" for e in circuit.elements_of("M") if e.nodes[3] != e.nodes[2])
 
 
 def _spanning_tree(points: list) -> list:
