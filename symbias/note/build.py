@@ -50,9 +50,10 @@ def build_note(target: Target, inputs: DesignInputs, request: NoteRequest | None
     from .ranking import ranking_section
 
     context = note_context(target, inputs, request or NoteRequest())
-    compliance, _ = compliance_section(context)
-    temperature, _ = temperature_section(context)
-    supply, _ = supply_section(context)
+    compliance, output_sweep = compliance_section(context)
+    temperature, temperature_sweep = temperature_section(context)
+    supply, supply_sweep = supply_section(context)
+    sweeps = tuple(s for s in (output_sweep, temperature_sweep, supply_sweep) if s is not None)
     sections = [purpose_section(context), schematic_section(context), roles_section(context),
                 small_signal_section(context), ratio_section(context), random_section(context),
                 sensitivities_section(context), operating_point_section(context), compliance, temperature, supply]
@@ -62,4 +63,5 @@ def build_note(target: Target, inputs: DesignInputs, request: NoteRequest | None
     record = provenance(context)
     sections += [cautions_section(context), provenance_section(record)]
     title = f"Design note: {target.topology.title if target.topology is not None else target.title}"
-    return Note(title, target.topology.id if target.topology is not None else target.where, tuple(sections), record)
+    subject = target.topology.id if target.topology is not None else target.where
+    return Note(title, subject, tuple(sections), record, sweeps)

@@ -268,13 +268,14 @@ def _spans(result) -> tuple:
 
 
 def compliance_section(context: NoteContext) -> tuple[Section, Any]:
-    """Output current against output voltage with the compliance (headroom) marked; the sweep result beside."""
+    """Output current against output voltage with the compliance (headroom) marked; the sweep request beside."""
     from ..pipeline import run_sweep
 
     title = "Compliance"
     if context.kind == "reference":
         return Section("compliance", title, (Paragraph("Not applicable: the output is a node voltage."),)), None
-    result = run_sweep(context.target, built_in(context.inputs), output_sweep_request(context))
+    request = output_sweep_request(context)
+    result = run_sweep(context.target, built_in(context.inputs), request)
     m = result.metrics
     rows = (("compliance by current (low side)", Number(m.by_current_low, "V")),
             ("first device out of its region (low side)", m.device_low or "-"),
@@ -292,14 +293,15 @@ def compliance_section(context: NoteContext) -> tuple[Section, Any]:
                   f"{100 * m.fraction:g} % from its {m.basis} at the reference voltage."),
         Table(("quantity", "value"), rows, "Compliance"),
         Figure(plot, "Output current against output voltage; the compliance (headroom) is marked."),
-    )), result
+    )), request
 
 
 def temperature_section(context: NoteContext) -> tuple[Section, Any]:
-    """Output against temperature: box TC, slope, zero-slope temperature, curvature; the sweep result beside."""
+    """Output against temperature: box TC, slope, zero-slope temperature, curvature; the sweep request beside."""
     from ..pipeline import run_sweep
 
-    result = run_sweep(context.target, built_in(context.inputs), temperature_sweep_request(context))
+    request = temperature_sweep_request(context)
+    result = run_sweep(context.target, built_in(context.inputs), request)
     m = result.metrics
     unit = result.output_unit
     rows = (("output at the nominal temperature", Number(m.nominal_value, unit)),
@@ -319,11 +321,11 @@ def temperature_section(context: NoteContext) -> tuple[Section, Any]:
                   "models); the box TC is (highest - lowest) / (nominal output x temperature span)."),
         Table(("quantity", "value"), rows, "Temperature behaviour"),
         Figure(plot, "Output against temperature with the box (lowest, highest) and the zero-slope temperature."),
-    )), result
+    )), request
 
 
 def supply_section(context: NoteContext) -> tuple[Section, Any]:
-    """Output against supply and the line sensitivity; the sweep result beside (None without a supply)."""
+    """Output against supply and the line sensitivity; the sweep request beside (None without a supply)."""
     from ..pipeline import run_sweep
 
     request = supply_sweep_request(context)
@@ -343,4 +345,4 @@ def supply_section(context: NoteContext) -> tuple[Section, Any]:
                   "built-in models)."),
         Table(("quantity", "value"), rows, "Line sensitivity"),
         Figure(plot, "Output against supply; the nominal supply is marked."),
-    )), result
+    )), request

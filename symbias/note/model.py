@@ -268,12 +268,15 @@ class Note:
         The topology id or the netlist file the note is about.
     sections : tuple of Section
     provenance : Provenance
+    sweeps : tuple of SweepRequest
+        The DC sweeps the note ran (output, temperature, supply), for the sign-off deck.
     """
 
     title: str
     subject: str
     sections: tuple[Section, ...]
     provenance: Provenance
+    sweeps: tuple = ()
 
     def section(self, key: str) -> Section | None:
         """The section with that key (``schematic``, ``operating-point`` ...), or None."""
