@@ -258,6 +258,36 @@ def supply_sweep_request(context: NoteContext):
                         context.output_probe)
 
 
+#: Fractions of the range a failed sweep is started again from (a junction forced on near 0 V, no solution there).
+_RETRY_STARTS = (0.25, 0.5)
+
+
+def _sweep(context: NoteContext, request):
+    """Run a sweep; where it fails at its low end, start it again higher up.
+
+    Returns (result or None, request actually run, why it was shortened or not run).
+    """
+    from dataclasses import replace
+
+    from ..pipeline import run_sweep
+
+    try:
+        return run_sweep(context.target, built_in(context.inputs), request), request, ""
+    except SymbiasError as err:
+        first = err
+    if request.varies_temperature:
+        return None, request, f"Not computed: {first.reason}."
+    for fraction in _RETRY_STARTS:
+        shorter = replace(request, start=request.start + fraction * (request.stop - request.start))
+        try:
+            result = run_sweep(context.target, built_in(context.inputs), shorter)
+        except SymbiasError:
+            continue
+        return result, shorter, (f"From {request.start:g} the sweep failed ({first.reason}); it starts at "
+                                 f"{shorter.start:g} instead.")
+    return None, request, f"Not computed: {first.reason}."
+
+
 def _curve(result) -> Curve:
     return Curve(tuple(float(v) for v in result.sweep.values), tuple(float(v) for v in result.values),
                  result.output)
@@ -269,13 +299,12 @@ def _spans(result) -> tuple:
 
 def compliance_section(context: NoteContext) -> tuple[Section, Any]:
     """Output current against output voltage with the compliance (headroom) marked; the sweep request beside."""
-    from ..pipeline import run_sweep
-
     title = "Compliance"
     if context.kind == "reference":
         return Section("compliance", title, (Paragraph("Not applicable: the output is a node voltage."),)), None
-    request = output_sweep_request(context)
-    result = run_sweep(context.target, built_in(context.inputs), request)
+    result, request, why = _sweep(context, output_sweep_request(context))
+    if result is None:
+        return Section("compliance", title, (Paragraph(why),)), None
     m = result.metrics
     rows = (("compliance by current (low side)", Number(m.by_current_low, "V")),
             ("first device out of its region (low side)", m.device_low or "-"),
@@ -287,7 +316,7 @@ def compliance_section(context: NoteContext) -> tuple[Section, Any]:
         (abs(_source_value(context, context.output)), "operating point", "tab:green")) if v is not None)
     plot = Plot("compliance", "Output current against output voltage", (_curve(result),),
                 f"{result.sweep.variable} [V]", f"{result.output} [A]", markers, _spans(result))
-    return Section("compliance", title, (
+    return Section("compliance", title, (*((Paragraph(why),) if why else ()),
         Paragraph(f"The output source swept from {result.sweep.values[0]:g} V to {result.sweep.values[-1]:g} V "
                   f"({result.sweep.values.size} points, built-in models); compliance is where the current departs by "
                   f"{100 * m.fraction:g} % from its {m.basis} at the reference voltage."),
@@ -298,10 +327,9 @@ def compliance_section(context: NoteContext) -> tuple[Section, Any]:
 
 def temperature_section(context: NoteContext) -> tuple[Section, Any]:
     """Output against temperature: box TC, slope, zero-slope temperature, curvature; the sweep request beside."""
-    from ..pipeline import run_sweep
-
-    request = temperature_sweep_request(context)
-    result = run_sweep(context.target, built_in(context.inputs), request)
+    result, request, why = _sweep(context, temperature_sweep_request(context))
+    if result is None:
+        return Section("temperature", "Temperature", (Paragraph(why),)), None
     m = result.metrics
     unit = result.output_unit
     rows = (("output at the nominal temperature", Number(m.nominal_value, unit)),
@@ -326,12 +354,11 @@ def temperature_section(context: NoteContext) -> tuple[Section, Any]:
 
 def supply_section(context: NoteContext) -> tuple[Section, Any]:
     """Output against supply and the line sensitivity; the sweep request beside (None without a supply)."""
-    from ..pipeline import run_sweep
-
-    request = supply_sweep_request(context)
-    if request is None:
+    if context.supply is None:
         return Section("supply", "Supply", (Paragraph("Not applicable: the circuit has no supply source."),)), None
-    result = run_sweep(context.target, built_in(context.inputs), request)
+    result, request, why = _sweep(context, supply_sweep_request(context))
+    if result is None:
+        return Section("supply", "Supply", (Paragraph(why),)), None
     m = result.metrics
     rows = (("nominal supply", Number(m.nominal_supply, "V")), ("output there", Number(m.nominal_value,
                                                                                         result.output_unit)),
@@ -340,7 +367,7 @@ def supply_section(context: NoteContext) -> tuple[Section, Any]:
     plot = Plot("supply", "Output against supply", (_curve(result),), f"{request.vary} [V]",
                 f"{result.output} [{result.output_unit}]", (Marker(m.nominal_supply, "nominal supply",
                                                                    colour="tab:green"),), _spans(result))
-    return Section("supply", "Supply", (
+    return Section("supply", "Supply", (*((Paragraph(why),) if why else ()),
         Paragraph(f"{request.vary} swept from {request.start:g} V to {request.stop:g} V ({request.points} points, "
                   "built-in models)."),
         Table(("quantity", "value"), rows, "Line sensitivity"),

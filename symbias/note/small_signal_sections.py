@@ -22,10 +22,12 @@ from __future__ import annotations
 from .context import NoteContext
 from .model import Bullets, Math, Number, Paragraph, Section, Table
 
-__all__ = ["small_signal_section", "sensitivities_section", "formula_latex", "SHOWN_TERMS", "SENSITIVITY_ROWS"]
+__all__ = ["small_signal_section", "sensitivities_section", "formula_latex", "SHOWN_TERMS", "SENSITIVITY_ROWS", "READABLE_TERMS"]
 
 #: Largest exact result (numerator plus denominator terms) typeset in a note.
 SHOWN_TERMS = 60
+#: Largest leading-order form (kept terms) tidied by sympy before it is typeset.
+READABLE_TERMS = 12
 #: Sensitivity rows kept per quantity (the largest in magnitude).
 SENSITIVITY_ROWS = 8
 _UNITS = {"output_resistance": "ohm", "current_gain": "1", "voltage_gain": "1", "transconductance": "S",
@@ -41,10 +43,18 @@ def formula_latex(formula) -> str:
 
 
 def _approximation_latex(approximation) -> str:
+    """The leading-order form: tidied by sympy when short, else straight from its kept terms (sympy's tidying of
+    a long form took seconds)."""
     from ..readable import readable_latex
-    from ..symbols import QUANTITY_LATEX
+    from ..symbols import QUANTITY_LATEX, latex_name
 
-    return rf"{QUANTITY_LATEX.get(approximation.exact.quantity, 'F')} \approx {readable_latex(approximation.expr)}"
+    (numerator, _), (denominator, _) = approximation.kept
+    if numerator + denominator <= READABLE_TERMS:
+        body = readable_latex(approximation.expr)
+    else:
+        formula = approximation.formula
+        body = formula.latex({s.name: latex_name(s.name) for s in formula.symbols})
+    return rf"{QUANTITY_LATEX.get(approximation.exact.quantity, 'F')} \approx {body}"
 
 
 def small_signal_section(context: NoteContext) -> Section:
