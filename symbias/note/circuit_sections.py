@@ -117,7 +117,7 @@ def roles_section(context: NoteContext) -> Section:
             roles.setdefault(name.lower(), []).append(_ROLE_WORDS.get(key, key))
     rows = []
     for element in context.circuit.elements:
-        value = str(element.value) if element.value is not None else (element.model or "")
+        value = _value_text(element.value) if element.value is not None else (element.model or "")
         if element.kind in ("Q", "M", "D"):
             value = f"{element.model}" + "".join(f" {k}={v}" for k, v in element.params.items())
         role = ", ".join(roles.get(element.key, [])) or _device_role(context, element)
@@ -129,6 +129,11 @@ def roles_section(context: NoteContext) -> Section:
         Code(netlist_text(context), "spice"),
         Table(("element", "kind", "nodes", "value or model", "role"), tuple(rows)),
     ))
+
+
+def _value_text(value) -> str:
+    """An element value as written: a number in SPICE-like form (``3.3``, not ``33/10``), else its expression."""
+    return f"{float(value):g}" if value.is_number else str(value)
 
 
 def _device_role(context: NoteContext, element) -> str:

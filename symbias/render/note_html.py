@@ -37,7 +37,8 @@ th, td { border: 1px solid #bbb; padding: 0.2em 0.55em; text-align: left; vertic
 td.number { text-align: right; white-space: nowrap; } caption { font-style: italic; text-align: left; }
 pre { background: #f5f5f5; padding: 0.6em; overflow-x: auto; font-size: 0.88em; }
 figure { margin: 1em 0; } figure img { max-width: 100%; border: 1px solid #eee; }
-figcaption { font-style: italic; font-size: 0.92em; } math[display="block"] { margin: 0.6em 0; }
+figcaption { font-style: italic; font-size: 0.92em; }
+math[display="block"] { margin: 0.6em 0; display: block; overflow-x: auto; max-width: 100%; }
 """
 
 
