@@ -37,6 +37,7 @@ __all__ = [
     "GROUND",
     "validate",
     "conducting_pairs",
+    "controls_itself",
     "components",
 ]
 
@@ -471,8 +472,22 @@ def _check_voltage_loops(circuit: Circuit) -> None:
         parent[a] = b
 
 
+def controls_itself(element: Element) -> bool:
+    """True for a VCCS sensing the voltage across its own terminals: a conductance (or a negative one).
+
+    Examples
+    --------
+    >>> controls_itself(Element("G1", "G", ("a", "b", "b", "a"), 1)), controls_itself(Element("G2", "G", ("a", "0", "c", "0"), 1))
+    (True, False)
+    """
+    nodes = element.nodes
+    return element.kind == "G" and nodes[0] != nodes[1] and {nodes[0], nodes[1]} == {nodes[2], nodes[3]}
+
+
 def _check_current_cutsets(circuit: Circuit) -> None:
-    edges = [pair for element in circuit.elements if not KINDS[element.kind].forces_current
+    """Nodes reached only through elements that force a current; a self-controlled VCCS is a conductance."""
+    edges = [pair for element in circuit.elements
+             if not KINDS[element.kind].forces_current or controls_itself(element)
              for pair in conducting_pairs(element)]
     for component in components(circuit.nodes, edges):
         if GROUND in component:

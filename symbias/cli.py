@@ -3,7 +3,13 @@
 It holds no analysis.  Every sub-command lives in :mod:`symbias.commands`.
 Errors derived from :class:`~symbias.errors.SymbiasError` become one line on
 stderr (``file:line: cause``) and exit status 2 (bad input) or 1 (analysis
-failed); ``--debug`` shows the traceback instead.
+failed); ``--debug`` shows the traceback instead.  Warnings are one line each
+too, located at the netlist when they carry no place of their own (numpy's
+floating-point warnings).
+
+Run as a program (:func:`run`, ``python -m symbias``), a command works under
+the memory guard of :func:`symbias.limits.memory_guard`: running out of the
+limit is a one-line :class:`~symbias.errors.LimitError`, never a swap storm.
 
 Examples
 --------
@@ -16,10 +22,12 @@ import argparse
 import importlib
 import sys
 import warnings
+from contextlib import nullcontext
 
 from . import __version__
 from .commands import COMMANDS
 from .errors import AnalysisError, SymbiasError, SymbiasWarning
+from .limits import memory_guard, memory_limit, out_of_memory
 
 __all__ = ["main", "build_parser", "EXIT_OK", "EXIT_ANALYSIS", "EXIT_USAGE"]
 
@@ -35,11 +43,28 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
 
 
-def _one_line_warning(message, category, filename, lineno, file=None, line=None) -> None:
-    """Print a warning as ``file:line: warning: text`` (the message carries its own location)."""
-    text = str(message)
-    where, _, rest = text.partition(": ")
-    print(f"{where}: warning: {rest}" if rest else f"warning: {text}", file=sys.stderr)
+def _one_line_warnings(place: str):
+    """A ``showwarning`` that prints ``file:line: warning: text`` on one line.
+
+    symbias's own warnings carry their location in the message; any other
+    warning (numpy's "overflow encountered in multiply") is put at ``place``.
+    """
+
+    shown: set[str] = set()
+
+    def show(message, category, filename, lineno, file=None, line=None) -> None:
+        text = " ".join(str(message).split())
+        if text in shown:  # the same warning from another line of the same loop says nothing new
+            return
+        shown.add(text)
+        if issubclass(category, SymbiasWarning):
+            where, _, rest = text.partition(": ")
+            print(f"{where}: warning: {rest}" if rest else f"{place}: warning: {text}", file=sys.stderr)
+        else:
+            print(f"{place}: warning: {text} (numbers beyond the range of floating point in the evaluation)",
+                  file=sys.stderr)
+
+    return show
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -58,8 +83,13 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def main(argv: list[str] | None = None) -> int:
-    """Run the command line; return the exit status."""
+def main(argv: list[str] | None = None, *, guard_memory: bool = False) -> int:
+    """Run the command line; return the exit status.
+
+    ``guard_memory`` runs the command under :func:`symbias.limits.memory_guard`
+    (as :func:`run` does); the limit is :data:`symbias.limits.MEMORY_LIMIT` or
+    the environment variable :data:`symbias.limits.MEMORY_VARIABLE`.
+    """
     for stream in (sys.stdout, sys.stderr):
         # a netlist may hold any characters; never fail on a terminal that cannot show them
         if hasattr(stream, "reconfigure"):
@@ -69,19 +99,32 @@ def main(argv: list[str] | None = None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return EXIT_USAGE
+    place = getattr(args, "netlist", None) or getattr(args, "id", None) or "symbias"
+    limit = None
     try:
-        with warnings.catch_warnings():
-            # "default": each distinct warning once per run (a circuit is stamped once per solve)
-            warnings.simplefilter("default", SymbiasWarning)
-            warnings.showwarning = _one_line_warning
+        limit = memory_limit() if guard_memory else None
+        with warnings.catch_warnings(), _guarded(limit):
+            warnings.simplefilter("always", SymbiasWarning)
+            warnings.showwarning = _one_line_warnings(place)
             status = int(args.func(args) or EXIT_OK)
         sys.stdout.flush()  # a full disk or a closed pipe shows here, inside the handlers below
         return status
+    except MemoryError:
+        if args.debug:
+            raise
+        print(str(out_of_memory(limit).located(place)), file=sys.stderr)
+        return EXIT_USAGE
+    except ImportError as err:  # under the memory guard a library that cannot be mapped fails to import
+        if args.debug or limit is None:
+            raise
+        print(str(out_of_memory(limit, f"a library could not be loaded ({err.name or err})").located(place)),
+              file=sys.stderr)
+        return EXIT_USAGE
     except SymbiasError as err:
         if args.debug:
             raise
         # an error found outside any file (an empty sweep range) is reported against the netlist
-        print(str(err if err.path else err.located(getattr(args, "netlist", None))), file=sys.stderr)
+        print(str(err if err.path else err.located(place)), file=sys.stderr)
         return EXIT_ANALYSIS if isinstance(err, AnalysisError) else EXIT_USAGE
     except KeyboardInterrupt:  # pragma: no cover - interactive
         print("interrupted", file=sys.stderr)
@@ -93,6 +136,18 @@ def main(argv: list[str] | None = None) -> int:
         _silence_stdout()
         print(f"symbias: cannot write the output: {err.strerror or err}", file=sys.stderr)
         return EXIT_ANALYSIS
+
+
+def _guarded(limit: int | None):
+    """The memory guard for a command; numpy is loaded first so that its own reservations do not count."""
+    if limit is None:
+        return nullcontext()
+    import numpy  # noqa: F401 - its BLAS buffers are reserved at import, before the limit is set
+
+    from .linear.polys import default_backend
+
+    default_backend()  # python-flint loaded too: short of memory, its import would fail and the slow ring be used
+    return memory_guard(limit)
 
 
 def _silence_stdout() -> None:
@@ -107,8 +162,8 @@ def _silence_stdout() -> None:
 
 
 def run() -> None:
-    """Entry point of the console script."""
-    sys.exit(main())
+    """Entry point of the console script: :func:`main` under the memory guard."""
+    sys.exit(main(guard_memory=True))
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -361,6 +361,8 @@ def log_frequencies(start: float, stop: float, per_decade: int = 20) -> np.ndarr
     ------
     UsageError
         For a start that is not positive, a stop not above the start, or fewer than 1 point per decade.
+    LimitError
+        For more points than :data:`symbias.limits.MAX_SWEEP_POINTS`.
 
     Examples
     --------
@@ -373,7 +375,9 @@ def log_frequencies(start: float, stop: float, per_decade: int = 20) -> np.ndarr
         raise UsageError(f"the last frequency ({stop:g} Hz) must be above the first ({start:g} Hz)", path="--to")
     if per_decade < 1:
         raise UsageError(f"points per decade must be at least 1, got {per_decade}", path="--points")
-    count = max(2, int(math.ceil(math.log10(stop / start) * per_decade)) + 1)
+    from .limits import check_points
+
+    count = check_points(max(2, int(math.ceil((math.log10(stop) - math.log10(start)) * per_decade)) + 1))
     return np.logspace(math.log10(start), math.log10(stop), count)
 
 

@@ -26,14 +26,16 @@ Examples
 from __future__ import annotations
 
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
 
 from .circuit import GROUND, Circuit, Element, Model, SimulatorCard, validate
 from .elements import KINDS
-from .errors import CircuitError, NetlistError, SymbiasError
+from .errors import CircuitError, LimitError, NetlistError, SymbiasError
 from .expressions import ZERO, Expr, Number, Symbol, parse_value, try_parse_number
+from .limits import MAX_ELEMENTS, MAX_SUBCIRCUIT_DEPTH, temperature_problem
 from .netlist_lines import Line, logical_lines, read_text, top_lines
 
 __all__ = ["parse_netlist", "read_netlist", "format_netlist", "Line"]
@@ -144,74 +146,128 @@ def read_netlist(path: str | Path, *, check: bool = True) -> Circuit:
 
 def _parse(text: str, path: str | None, check: bool) -> Circuit:
     title, lines = logical_lines(text, path)
-
-    # pass 1: pull out subcircuit bodies, models and params (params in order)
-    top: list[Line] = []
-    subckts: dict[str, _Subckt] = {}
-    current: _Subckt | None = None
-    models: dict[str, Model] = {}
-    params: dict[str, Expr] = {}
-    groups: dict[str, tuple[str, ...]] = {}
+    cards = _Cards()
     for line in lines:
-        low = line.text.lower()
-        if low.startswith(".subckt"):
-            if current is not None:
-                raise NetlistError("nested .subckt definitions are not supported", line=line.number)
-            tokens = _tokens(line.text)
-            if len(tokens) < 2:
-                raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
-            positional, named = _split_params(tokens[2:], line.number)
-            if positional and positional[-1].lower() == "params:":
-                positional = positional[:-1]
-            positional = [p for p in positional if p.lower() != "params:"]
-            current = _Subckt(tokens[1].lower(), positional, named, [], line.number)
-            continue
-        if low.startswith(".ends"):
-            if current is None:
-                raise NetlistError(".ends without .subckt", line=line.number)
-            subckts[current.name] = current
-            current = None
-            continue
-        if current is not None:
-            if low.startswith(".model"):
-                _add_model(line, models)
-            else:
-                current.body.append(line)
-            continue
-        if low.startswith(".model"):
-            _add_model(line, models)
-        elif low.startswith(".param"):
-            _add_params(line, params)
-        elif low.startswith(".match"):
-            tokens = _tokens(line.text)
-            if len(tokens) < 3:
-                raise NetlistError(".match needs a group name and at least one device", line=line.number)
-            groups[tokens[1]] = tuple(t.lower() for t in tokens[2:])
-        elif low.startswith(".end"):
-            break
-        else:
-            top.append(line)
-    if current is not None:
-        raise NetlistError(f".subckt {current.name} has no .ends", line=current.line)
+        with _at(line):
+            if not cards.take(line):
+                break
+    cards.finish()
 
     elements: list[Element] = []
-    for line in top:
-        if line.text.startswith("."):
-            card = line.text.split()[0].lower()
-            if card in _IGNORED_CARDS:
-                continue
-            raise NetlistError(f"unknown control card {card!r}", line=line.number)
-        elements.extend(_element_or_instance(line, params, models, subckts, prefix="", mapping={}, depth=0))
+    budget = _Budget()
+    for line in cards.top:
+        with _at(line):
+            if line.text.startswith("."):
+                card = line.text.split()[0].lower()
+                if card in _IGNORED_CARDS:
+                    continue
+                raise NetlistError(f"unknown control card {card!r}", line=line.number)
+            elements.extend(_element_or_instance(line, cards.params, cards.models, cards.subckts, prefix="",
+                                                 mapping={}, depth=0, budget=budget))
 
-    circuit = Circuit(title=title, elements=tuple(elements), models=models, params=params, groups=groups, path=path,
-                      simulator_cards=_simulator_cards(text, path, models))
-    for group, members in groups.items():
-        for member in members:
-            if not circuit.has_element(member):
-                raise CircuitError(f".match {group}: no device named {member!r}", path=path)
+    circuit = Circuit(title=title, elements=tuple(elements), models=cards.models, params=cards.params,
+                      groups={g: members for g, (members, _) in cards.groups.items()}, path=path,
+                      simulator_cards=_simulator_cards(text, path, cards.models))
+    _check_groups(circuit, cards.groups)
     if check:
         validate(circuit)
     return circuit
+
+
+@contextmanager
+def _at(line: Line):
+    """Errors about a line from an included file name that file and its own line."""
+    try:
+        yield
+    except SymbiasError as err:
+        origin, number = line.where
+        if origin is None:
+            raise
+        raise type(err)(err.reason, path=origin, line=number) from None
+
+
+_PARAM_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*", re.ASCII)
+
+
+class _Cards:
+    """Pass 1 over the lines: subcircuit bodies, models, parameters and matched groups; the rest kept in order."""
+
+    def __init__(self) -> None:
+        self.top: list[Line] = []
+        self.subckts: dict[str, _Subckt] = {}
+        self.current: _Subckt | None = None
+        self.models: dict[str, Model] = {}
+        self.params: dict[str, Expr] = {}
+        self.param_lines: dict[str, int] = {}
+        self.groups: dict[str, tuple[tuple[str, ...], int]] = {}
+
+    def take(self, line: Line) -> bool:
+        """Read one line; False at ``.end``."""
+        card = line.text.split()[0].lower()
+        if card == ".subckt":
+            self._subckt(line)
+        elif card == ".ends":
+            if self.current is None:
+                raise NetlistError(".ends without .subckt", line=line.number)
+            self.subckts[self.current.name] = self.current
+            self.current = None
+        elif card == ".model":
+            _add_model(line, self.models)
+        elif self.current is not None:
+            self.current.body.append(line)
+        elif card == ".param":
+            _add_params(line, self.params, self.param_lines)
+        elif card == ".match":
+            self._match(line)
+        elif card == ".end":
+            return False
+        else:
+            self.top.append(line)
+        return True
+
+    def finish(self) -> None:
+        if self.current is not None:
+            raise NetlistError(f".subckt {self.current.name} has no .ends", line=self.current.line)
+
+    def _subckt(self, line: Line) -> None:
+        if self.current is not None:
+            raise NetlistError("nested .subckt definitions are not supported", line=line.number)
+        tokens = _tokens(line.text)
+        if len(tokens) < 2:
+            raise NetlistError(".subckt needs a name and its port nodes", line=line.number)
+        name = tokens[1].lower()
+        first = self.subckts.get(name)
+        if first is not None:
+            raise NetlistError(f"subcircuit {tokens[1]!r} is defined twice (first on line {first.line})",
+                               line=line.number)
+        positional, named = _split_params(tokens[2:], line.number)
+        positional = [p for p in positional if p.lower() != "params:"]
+        self.current = _Subckt(name, positional, named, [], line.number)
+
+    def _match(self, line: Line) -> None:
+        tokens = _tokens(line.text)
+        if len(tokens) < 3:
+            raise NetlistError(".match needs a group name and at least one device", line=line.number)
+        if tokens[1] in self.groups:
+            raise NetlistError(f".match group {tokens[1]!r} is declared twice (first on line "
+                               f"{self.groups[tokens[1]][1]})", line=line.number)
+        self.groups[tokens[1]] = (tuple(t.lower() for t in tokens[2:]), line.number)
+
+
+def _check_groups(circuit: Circuit, groups: dict[str, tuple[tuple[str, ...], int]]) -> None:
+    """Every ``.match`` member is a device of the circuit, in one group only."""
+    seen: dict[str, str] = {}
+    for group, (members, line) in groups.items():
+        for member in members:
+            if not circuit.has_element(member):
+                raise CircuitError(f".match {group}: no device named {member!r}", line=line)
+            element = circuit.element(member)
+            if not KINDS[element.kind].is_device:
+                raise CircuitError(f".match {group}: {element.name} is a {KINDS[element.kind].name}; only "
+                                   "transistors and diodes are matched", line=line)
+            if member in seen:
+                raise CircuitError(f".match {group}: {element.name} is already in group {seen[member]}", line=line)
+            seen[member] = group
 
 
 def _simulator_cards(text: str, path: str | None, models: dict[str, Model]) -> tuple[SimulatorCard, ...]:
@@ -240,21 +296,52 @@ def _add_model(line: Line, models: dict[str, Model]) -> None:
     if positional:
         raise NetlistError(f".model {name}: expected NAME=value parameters, got {positional[0]!r}", line=line.number)
     values = {key.upper(): _value(text, {}, line.number) for key, text in named.items()}
+    tnom = values.get("TNOM")
+    if tnom is not None and tnom.is_number and temperature_problem(float(tnom)) is not None:
+        raise NetlistError(f".model {name}: TNOM: {temperature_problem(float(tnom))}", line=line.number)
     if name.lower() in models:
         raise NetlistError(f"model {name!r} is defined twice (first on line {models[name.lower()].line})", line=line.number)
     models[name.lower()] = Model(name=name, type=mtype, params=values, line=line.number)
 
 
-def _add_params(line: Line, params: dict[str, Expr]) -> None:
+def _add_params(line: Line, params: dict[str, Expr], lines: dict[str, int]) -> None:
+    """``.param a=1 b={2*a}``: a name may use only the names defined before it (never itself)."""
     tokens = _tokens(line.text)[1:]
     positional, named = _split_params(tokens, line.number)
     if positional or not named:
         raise NetlistError(".param expects name=value pairs", line=line.number)
     for key, text in named.items():
-        params[key] = _value(text, params, line.number)
+        if not _PARAM_NAME.fullmatch(key):
+            raise NetlistError(f".param name {key!r} is not a name (a letter or _, then letters, digits, _)",
+                               line=line.number)
+        value = _value(text, params, line.number)
+        if key in {n.lower() for n in value.names}:
+            raise NetlistError(f".param {key} refers to itself", line=line.number)
+        if key in params:
+            raise NetlistError(f".param {key} is defined twice (first on line {lines[key]})", line=line.number)
+        params[key] = value
+        lines[key] = line.number
+    for key, value in params.items():
+        later = sorted(n for n in value.names if n.lower() in params and lines[n.lower()] >= lines[key])
+        if later:
+            raise NetlistError(f".param {key} uses {later[0]}, defined after it: define {later[0]} first",
+                               line=lines[key])
 
 
-def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) -> list[Element]:
+class _Budget:
+    """Counts the elements made so far, flattened subcircuits included (:data:`~symbias.limits.MAX_ELEMENTS`)."""
+
+    def __init__(self) -> None:
+        self.count = 0
+
+    def spend(self, line: Line) -> None:
+        self.count += 1
+        if self.count > MAX_ELEMENTS:
+            raise LimitError(f"the netlist has more than MAX_ELEMENTS = {MAX_ELEMENTS} elements once its subcircuits "
+                             "are flattened; analyse a smaller part of it", line=line.number)
+
+
+def _element_or_instance(line, params, models, subckts, prefix, mapping, depth, budget) -> list[Element]:
     tokens = _tokens(line.text)
     if not tokens:  # e.g. a line of parentheses or commas only
         raise NetlistError(f"cannot read {line.text.strip()[:40]!r}: expected an element or a dot card",
@@ -262,9 +349,10 @@ def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) 
     name = tokens[0]
     letter = name[0].upper()
     if letter == "X":
-        return _instance(line, tokens, params, models, subckts, prefix, mapping, depth)
+        return _instance(line, tokens, params, models, subckts, prefix, mapping, depth, budget)
     if letter not in KINDS:
         raise NetlistError(f"unknown element letter {letter!r} in {name!r}", line=line.number)
+    budget.spend(line)
     element = _element(line, tokens, params, models)
     if prefix or mapping:
         element = Element(
@@ -280,9 +368,10 @@ def _element_or_instance(line, params, models, subckts, prefix, mapping, depth) 
     return [element]
 
 
-def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> list[Element]:
-    if depth > 20:
-        raise NetlistError("subcircuits nested more than 20 deep (recursive definition?)", line=line.number)
+def _instance(line, tokens, params, models, subckts, prefix, mapping, depth, budget) -> list[Element]:
+    if depth > MAX_SUBCIRCUIT_DEPTH:
+        raise LimitError(f"subcircuits nested more than MAX_SUBCIRCUIT_DEPTH = {MAX_SUBCIRCUIT_DEPTH} deep; "
+                         "a subcircuit that contains itself? else flatten some levels", line=line.number)
     positional, named = _split_params(tokens[1:], line.number)
     if not positional:
         raise NetlistError(f"{tokens[0]}: missing subcircuit name", line=line.number)
@@ -302,13 +391,17 @@ def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> 
     for key, text in sub.defaults.items():
         local[key] = _value(text, params, sub.line)
     for key, text in named.items():
+        if key not in sub.defaults:
+            known = ", ".join(sorted(sub.defaults)) or "none"
+            raise NetlistError(f"{tokens[0]}: subcircuit {sub.name} has no parameter {key!r} (its parameters: "
+                               f"{known})", line=line.number)
         local[key] = _value(text, params, line.number)
     inner_prefix = prefix + tokens[0] + "."
     elements = []
     for body_line in sub.body:
         elements.extend(
             _element_or_instance(
-                Line(line.number, body_line.text), local, models, subckts, inner_prefix, port_map, depth + 1
+                Line(line.number, body_line.text), local, models, subckts, inner_prefix, port_map, depth + 1, budget
             )
         )
     return elements
@@ -316,6 +409,19 @@ def _instance(line, tokens, params, models, subckts, prefix, mapping, depth) -> 
 
 def _element(line: Line, tokens: list[str], params, models) -> Element:
     """One element line, read by the fields its kind declares in :mod:`symbias.elements`."""
+    element = _fields(line, tokens, params, models)
+    for key in _POSITIVE:
+        value = element.params.get(key)
+        if value is not None and value.is_number and not float(value) > 0:
+            raise NetlistError(f"{element.name}: {key} must be positive, got {value}", line=line.number)
+    return element
+
+
+#: Instance parameters that must be positive when they are numbers (multiplier, area, MOS width and length).
+_POSITIVE = ("m", "area", "w", "l")
+
+
+def _fields(line: Line, tokens: list[str], params, models) -> Element:
     kind = KINDS[tokens[0][0].upper()]
     positional, named = _split_params(tokens[1:], line.number)
     inst = {k: _value(v, params, line.number) for k, v in named.items()}

@@ -15,8 +15,8 @@ in, so later errors about its element point at the top file, as elements of a
 subcircuit point at their ``X`` line), and ``origin``/``origin_line``, the file
 and line the text is really on, which errors in reading the text name.  An
 include cycle, a missing file or section, a file over
-:data:`MAX_FILE_BYTES` and nesting deeper than
-:data:`MAX_INCLUDE_DEPTH` are one-line errors at the
+:data:`~symbias.limits.MAX_FILE_BYTES` and nesting deeper than
+:data:`~symbias.limits.MAX_INCLUDE_DEPTH` are one-line errors at the
 ``.include`` line.
 
 Examples
@@ -33,13 +33,9 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import LimitError, NetlistError
+from .limits import MAX_FILE_BYTES, MAX_INCLUDE_DEPTH
 
-__all__ = ["Line", "logical_lines", "top_lines", "read_text", "MAX_FILE_BYTES", "MAX_INCLUDE_DEPTH"]
-
-#: Largest netlist or included file, in bytes.
-MAX_FILE_BYTES = 10_000_000
-#: Deepest nesting of ``.include``/``.lib`` files.
-MAX_INCLUDE_DEPTH = 20
+__all__ = ["Line", "logical_lines", "top_lines", "read_text"]
 
 _INCLUDE_CARDS = (".include", ".inc", ".lib")
 
@@ -72,7 +68,7 @@ class Line:
 
 
 def read_text(path: str | Path, error=NetlistError, what: str = "netlist") -> str:
-    """The UTF-8 text of an input file, refusing a file over :data:`MAX_FILE_BYTES`.
+    """The UTF-8 text of an input file, refusing a file over :data:`~symbias.limits.MAX_FILE_BYTES`.
 
     Raises
     ------
@@ -142,7 +138,7 @@ def logical_lines(text: str, path: str | None = None) -> tuple[str, list[Line]]:
         An empty netlist, a stray continuation, a missing or unreadable
         included file or section, an include cycle (each at its file and line).
     LimitError
-        Included files nested deeper than :data:`MAX_INCLUDE_DEPTH`.
+        Included files nested deeper than :data:`~symbias.limits.MAX_INCLUDE_DEPTH`.
     """
     raw = text.splitlines()
     if not raw:

@@ -21,6 +21,11 @@ cards (the card's own parameters win).  The grammar is documented once, in
     TC1 = -1e-3                # 1/K
     TC2 = 1e-6                 # 1/K^2
 
+    [layout]                   # optional: what a ranking counts as area
+    emitter_area = 10          # um^2 of a unit-area bipolar emitter
+    resistor_width = 1         # um: a resistor of n squares takes n * width^2
+    resistor_layer = "RPOLY"   # the layer of resistors that name none
+
 Examples
 --------
 >>> p = parse_process('''
@@ -48,6 +53,7 @@ from types import MappingProxyType
 from typing import Mapping
 
 from .errors import ProcessError
+from .limits import temperature_problem
 
 __all__ = [
     "Process",
@@ -59,6 +65,7 @@ __all__ = [
     "REQUIRED",
     "SIGNED",
     "TYPE_ALIASES",
+    "LAYOUT_KEYS",
 ]
 
 #: Parameters every device entry of a type must give.
@@ -146,6 +153,9 @@ class Process:
         Keyed by lower-case layer name.
     path : str or None
         File it came from.
+    layout : mapping of str to float or str
+        The optional ``[layout]`` table: ``emitter_area`` (um^2), ``resistor_width`` (um),
+        ``resistor_layer`` (a layer name).
 
     Examples
     --------
@@ -159,13 +169,16 @@ class Process:
     devices: Mapping[str, DeviceParameters] = field(default_factory=dict)
     resistors: Mapping[str, ResistorLayer] = field(default_factory=dict)
     path: str | None = None
+    layout: Mapping[str, float | str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "devices", MappingProxyType(dict(self.devices)))
         object.__setattr__(self, "resistors", MappingProxyType(dict(self.resistors)))
+        object.__setattr__(self, "layout", MappingProxyType(dict(self.layout)))
 
     def __reduce__(self):
-        return (Process, (self.name, self.tnom, dict(self.devices), dict(self.resistors), self.path))
+        return (Process, (self.name, self.tnom, dict(self.devices), dict(self.resistors), self.path,
+                          dict(self.layout)))
 
     def device(self, name: str, type_: str | None = None) -> DeviceParameters | None:
         """The device called ``name``; failing that the only device of ``type_``; else None.
@@ -252,19 +265,47 @@ def parse_process(text: str, path: str | None = None) -> Process:
     if "tnom" not in header:
         raise ProcessError("[process] has no 'tnom' (nominal temperature, degC)", path=path,
                            line=locate.section("process"))
-    tnom = _number(header["tnom"], "tnom", path, locate.key("process", "tnom"))
+    tnom = _parameter("TNOM", header["tnom"], path, locate.key("process", "tnom"))
     devices = {}
     for name, body in _table(data, "devices", path, locate).items():
         devices[name.lower()] = _device(name, body, path, locate)
     resistors = {}
     for name, body in _table(data, "resistors", path, locate).items():
         resistors[name.lower()] = _resistor(name, body, path, locate)
-    unknown = set(data) - {"process", "devices", "resistors"}
+    unknown = set(data) - {"process", "devices", "resistors", "layout"}
     if unknown:
         section = sorted(unknown)[0]
-        raise ProcessError(f"unknown section [{section}] (expected process, devices, resistors)", path=path,
+        raise ProcessError(f"unknown section [{section}] (expected process, devices, resistors, layout)", path=path,
                            line=locate.section(section))
-    return Process(str(header.get("name", "")), tnom, devices, resistors, path)
+    layout = _layout(data.get("layout", {}), resistors, path, locate)
+    return Process(str(header.get("name", "")), tnom, devices, resistors, path, layout)
+
+
+#: Keys of the optional ``[layout]`` table: what a ranking counts as area.
+LAYOUT_KEYS = ("emitter_area", "resistor_width", "resistor_layer")
+
+
+def _layout(body, resistors: dict, path: str | None, locate: "_Locator") -> dict[str, float | str]:
+    if not isinstance(body, dict):
+        raise ProcessError("[layout] must be a table", path=path, line=locate.section("layout"))
+    out: dict[str, float | str] = {}
+    for key, value in body.items():
+        line = locate.key("layout", key) or locate.section("layout")
+        if key not in LAYOUT_KEYS:
+            raise ProcessError(f"[layout] unknown key {key!r} (expected {', '.join(LAYOUT_KEYS)})", path=path,
+                               line=line)
+        if key == "resistor_layer":
+            if not isinstance(value, str) or value.lower() not in resistors:
+                known = ", ".join(sorted(resistors)) or "none"
+                raise ProcessError(f"[layout] resistor_layer {value!r} names no resistor layer (known: {known})",
+                                   path=path, line=line)
+            out[key] = value.lower()
+            continue
+        number = _number(value, key, path, line)
+        if not (number > 0 and math.isfinite(number)):
+            raise ProcessError(f"[layout] {key} must be a positive number, got {value!r}", path=path, line=line)
+        out[key] = number
+    return out
 
 
 def _table(data: dict, key: str, path: str | None, locate: "_Locator") -> dict:
@@ -310,6 +351,8 @@ def _resistor(name: str, body: dict, path: str | None, locate: "_Locator") -> Re
 
 def _parameter(key: str, value, path: str | None, line: int | None) -> float:
     number = _number(value, key, path, line)
+    if key == "TNOM" and temperature_problem(number) is not None:
+        raise ProcessError(f"TNOM: {temperature_problem(number)}", path=path, line=line)
     if number < 0 and key not in SIGNED:
         raise ProcessError(f"parameter {key} must not be negative, got {value}", path=path, line=line)
     return number
@@ -319,8 +362,8 @@ def _number(value, key: str, path: str | None, line: int | None) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ProcessError(f"parameter {key} must be a number, got {value!r}", path=path, line=line)
     number = float(value)
-    if math.isnan(number):
-        raise ProcessError(f"parameter {key} is not a number (nan)", path=path, line=line)
+    if not math.isfinite(number):
+        raise ProcessError(f"parameter {key} is not a finite number ({number})", path=path, line=line)
     return number
 
 

@@ -42,10 +42,16 @@ __all__ = [
     "group_sensitivity",
     "parameter_symbols",
     "SYMBOLIC_TERMS",
+    "SYMBOLIC_RESULT_TERMS",
+    "FACTOR_TERMS",
 ]
 
 #: Largest formula (numerator plus denominator terms) given a symbolic sensitivity.
 SYMBOLIC_TERMS = 200
+#: Largest sensitivity (numerator plus denominator terms, after cancellation) given a symbolic form.
+SYMBOLIC_RESULT_TERMS = 60
+#: Largest symbolic sensitivity that sympy cancels and factors.
+FACTOR_TERMS = 24
 
 
 def _check(formula: Formula, name: str) -> None:
@@ -121,13 +127,25 @@ class Sensitivity:
 
 
 def _symbolic(formula: Formula, names: Iterable[str]) -> sympy.Expr | None:
+    """The readable form: the ring's cancelled sensitivity, factored by sympy only when it is small.
+
+    sympy's rational cancellation and factoring take minutes on a 60-term
+    sensitivity of a four-transistor cascode (found by the adversarial run),
+    so they are kept to forms of at most :data:`FACTOR_TERMS` terms; larger
+    ones keep the ring's form, and beyond :data:`SYMBOLIC_RESULT_TERMS` terms
+    there is no symbolic form (the value is still given).
+    """
     if sum(formula.nterms) > SYMBOLIC_TERMS:
+        return None
+    parts = [sensitivity(formula, name) for name in names]
+    sizes = [sum(part.nterms) for part in parts]
+    if max(sizes, default=0) > SYMBOLIC_RESULT_TERMS:
         return None
     import sympy
 
-    total = sympy.Integer(0)
-    for name in names:
-        total += sensitivity(formula, name).expr
+    total = sympy.Add(*(part.expr for part in parts))
+    if sum(sizes) > FACTOR_TERMS:
+        return total if len(parts) == 1 else None
     return sympy.factor(sympy.cancel(total))
 
 

@@ -142,7 +142,10 @@ class MagnitudeModel:
 
     def admissible(self, logs: np.ndarray) -> np.ndarray:
         """Mask of points that pass every check (a relative slack of 1e-9)."""
-        logs = np.asarray(logs, dtype=float).reshape(-1, len(self.names))
+        logs = np.asarray(logs, dtype=float)
+        if not self.names:  # nothing varies: every point is the one point
+            return np.ones(logs.shape[0] if logs.ndim > 1 else 1, dtype=bool)
+        logs = logs.reshape(-1, len(self.names))
         if not self.checks:
             return np.ones(len(logs), dtype=bool)
         values = dot(logs, self._check_rows)

@@ -22,6 +22,7 @@ import numpy as np
 from ..errors import AssumptionError
 from ..formula import Formula
 from ..symbols import LAPLACE
+from ..limits import MAX_DERIVED_TERMS, check_terms
 from .magnitudes import MagnitudeModel, magnitude_model
 from .search import TermSearch
 from .statements import Assumption
@@ -213,6 +214,8 @@ def approximate(
     AssumptionError
         If no point satisfies every assumption, or for a bad tolerance or
         sample count.
+    LimitError
+        For a formula of more than :data:`~symbias.limits.MAX_DERIVED_TERMS` terms.
 
     Examples
     --------
@@ -230,10 +233,26 @@ def approximate(
         return approximate_frequency(formula, assumptions, tolerance=tolerance, defaults=defaults, samples=samples,
                                      seed=seed, band=band or DEFAULT_BAND)
     nN, nD = formula.nterms
-    if not names or (nN <= 1 and nD <= 1):
-        # a single term (or a number) is its own approximation
+    check_terms(nN + nD, MAX_DERIVED_TERMS, "MAX_DERIVED_TERMS", "an approximation",
+                "use fewer symbols or numbers for some of them")
+    if not names or nN == 0 or (nN <= 1 and nD <= 1):
+        # a single term, a number or zero is its own approximation
         return Approximation(formula, formula, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed, ((nN, nN), (nD, nD)))
     model = magnitude_model(names, assumptions, defaults=defaults, meanings=formula.meanings)
+    unit, ncorners, drawn = _sample_points(model, samples, seed)
+    terms = TermValues(formula, model.names)
+    terms.prepare(model.logs(unit))
+    kept, error, worst_unit, refined = TermSearch(terms, tolerance, model, unit).run()
+    approx = formula.with_polynomials(*(_kept_polynomial(formula, terms, kept, side) for side in (0, 1)),
+                                      label=f"{formula.label} (approx)", quantity=formula.quantity, problem=None)
+    point = {n: float(v[0]) for n, v in model.values(worst_unit[None, :]).items()}
+    counts = ((len(kept[0]), nN), (len(kept[1]), nD))
+    return Approximation(formula, approx, float(error), point, model.assumptions, tolerance, ncorners, drawn,
+                         refined, len(unit), seed, counts, model)
+
+
+def _sample_points(model: MagnitudeModel, samples: int, seed: int) -> tuple[np.ndarray, int, int]:
+    """The admissible box corners and random points (unit coordinates), the number of corners and of draws."""
     corners = model.corners(seed)
     corners = corners[model.admissible(model.logs(corners))]
     random, drawn = model.admitted_sample(samples, seed)
@@ -242,15 +261,7 @@ def approximate(
         raise AssumptionError("no point satisfies every assumption: "
                               + "; ".join(a.describe() for a in model.assumptions)
                               + " (drop a default with an explicit statement or with defaults=False)")
-    terms = TermValues(formula, model.names)
-    terms.prepare(model.logs(unit))
-    kept, error, worst_unit, refined = TermSearch(terms, tolerance, model, unit).run()
-    approx = formula.with_polynomials(*(_kept_polynomial(formula, terms, kept, side) for side in (0, 1)),
-                                      label=f"{formula.label} (approx)", quantity=formula.quantity, problem=None)
-    point = {n: float(v[0]) for n, v in model.values(worst_unit[None, :]).items()}
-    counts = ((len(kept[0]), nN), (len(kept[1]), nD))
-    return Approximation(formula, approx, float(error), point, model.assumptions, tolerance, len(corners), drawn,
-                         refined, len(unit), seed, counts, model)
+    return unit, len(corners), drawn
 
 
 def _check_options(tolerance: float, samples: int) -> None:

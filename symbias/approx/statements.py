@@ -50,6 +50,7 @@ from ..symbols import owners
 __all__ = [
     "Assumption",
     "parse_assumption",
+    "check_symbols",
     "default_assumptions",
     "nominal_ranges",
     "MUCH_GREATER",
@@ -208,6 +209,37 @@ def parse_assumption(text: str, origin: str = "user") -> Assumption:
             f"cannot read assumption {s!r}: expected A >> B, A << B, A ~ B, A in [lo, hi], lo < A < hi or A = v"
         )
     return statement
+
+
+def check_symbols(statements: Iterable[Assumption | str], names: Iterable[str]) -> tuple[Assumption, ...]:
+    """The statements read, after checking that each speaks only of symbols in ``names``.
+
+    A statement about a symbol the results do not have would otherwise be
+    left out without a word (a typo, or an assumption meant for another
+    circuit).
+
+    Raises
+    ------
+    AssumptionError
+        Naming the first unknown symbol and the symbols there are.
+
+    Examples
+    --------
+    >>> [a.text for a in check_symbols(["gm*ro >> 1"], ["gm", "ro", "rpi"])]
+    ['gm*ro >> 1']
+    >>> check_symbols(["foo >> bar"], ["gm", "ro"])
+    Traceback (most recent call last):
+    ...
+    symbias.errors.AssumptionError: <input>: 'foo >> bar' speaks of bar, which no derived result has (its symbols: gm, ro)
+    """
+    known = set(names)
+    read = tuple(s if isinstance(s, Assumption) else parse_assumption(s) for s in statements)
+    for statement in read:
+        unknown = sorted(statement.names - known)
+        if unknown:
+            raise AssumptionError(f"{statement.text!r} speaks of {unknown[0]}, which no derived result has "
+                                  f"(its symbols: {', '.join(sorted(known)) or 'none'})")
+    return read
 
 
 def _read(s: str, origin: str) -> Assumption | None:

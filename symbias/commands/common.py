@@ -18,9 +18,9 @@ from typing import Any, Iterable
 
 from ..errors import UsageError
 
-__all__ = ["add_target_argument", "add_design_arguments", "add_bias_source_arguments", "add_corner_argument",
-           "add_dc_arguments",
-           "parse_assignments", "target_of", "inputs_of", "print_renderables", "print_json"]
+__all__ = ["add_target_argument", "add_design_arguments", "temperature", "add_bias_source_arguments",
+           "add_corner_argument", "add_dc_arguments", "parse_assignments", "target_of", "inputs_of",
+           "print_renderables", "print_json"]
 
 
 def add_target_argument(parser: argparse.ArgumentParser) -> None:
@@ -32,7 +32,8 @@ def add_target_argument(parser: argparse.ArgumentParser) -> None:
 def add_design_arguments(group) -> None:
     """Add --process, --temp and --set: what a circuit needs to become numbers."""
     group.add_argument("--process", "-p", metavar="FILE", help="process file (TOML); .model cards override it")
-    group.add_argument("--temp", type=float, default=27.0, metavar="DEGC", help="temperature in degC (default 27)")
+    group.add_argument("--temp", type=temperature, default=None, metavar="DEGC",
+                       help="temperature in degC (default 27; above -273.15, at most 1000)")
     group.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
                        help="number for a free symbol in the netlist (repeatable); library defaults otherwise")
 
@@ -59,6 +60,26 @@ def add_dc_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--guess", action="append", default=[], metavar="NODE=VOLTS",
                         help="starting voltage of a node, to pick one of several solutions (repeatable)")
     parser.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def temperature(text: str) -> float:
+    """An argparse type: a temperature in degC within the models' range (:mod:`symbias.limits`).
+
+    Examples
+    --------
+    >>> temperature("85")
+    85.0
+    """
+    from ..limits import temperature_problem
+
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expects a temperature in degC, got {text!r}") from None
+    problem = temperature_problem(value)
+    if problem is not None:
+        raise argparse.ArgumentTypeError(problem)
+    return value
 
 
 def parse_assignments(items: Iterable[str], flag: str) -> dict[str, float]:
@@ -97,7 +118,8 @@ def inputs_of(args: argparse.Namespace, target):
     from ..pipeline import design_inputs
 
     guess = parse_assignments(getattr(args, "guess", []), "--guess")
-    return design_inputs(target, args.process, args.temp, parse_assignments(args.set, "--set"), guess,
+    temp = 27.0 if args.temp is None else args.temp
+    return design_inputs(target, args.process, temp, parse_assignments(args.set, "--set"), guess,
                          models=getattr(args, "models", "built-in"), corners=tuple(getattr(args, "corner", ())),
                          keep_deck=getattr(args, "keep_deck", None))
 

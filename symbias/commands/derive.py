@@ -132,8 +132,14 @@ def request_of(args: argparse.Namespace, target):
 
     quantities = [parse_quantity(kind, text, f"--{flag}") for flag, kind in _FLAGS.items()
                   for text in getattr(args, flag)]
-    if not args.at_bias and (args.models != "built-in" or args.corner or args.keep_deck):
-        raise UsageError("--models, --corner and --keep-deck choose the bias values: add --at-bias", path="--models")
+    if not args.at_bias:
+        given = [flag for flag, value in (("--process", args.process), ("--temp", args.temp), ("--set", args.set))
+                 if value is not None and value != []]
+        if given:
+            raise UsageError(f"{given[0]} is used with --at-bias: add it or leave {given[0]} out", path=given[0])
+        if args.models != "built-in" or args.corner or args.keep_deck:
+            raise UsageError("--models, --corner and --keep-deck choose the bias values: add --at-bias",
+                             path="--models")
     return DeriveRequest(
         quantities=tuple(quantities),
         options=options_of(args),
@@ -187,11 +193,13 @@ def output_format(args: argparse.Namespace) -> str:
 def run(args: argparse.Namespace) -> int:
     """Derive, then print as text, LaTeX, Markdown, JSON or Python (everything computed first)."""
     from ..pipeline import derive
+    from ..pipeline.derivation import check_printable
     from .common import print_json, print_renderables, target_of
 
     form = output_format(args)
     target = target_of(args)
     derivation = derive(target, request_of(args, target))
+    check_printable(derivation, form)
     if form == "json":
         from ..render.json import derivation_record, write_json
 

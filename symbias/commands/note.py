@@ -53,7 +53,7 @@ def command_line(args: argparse.Namespace) -> str:
         words += ["--library", folder]
     if args.process:
         words += ["--process", args.process]
-    if args.temp != 27.0:
+    if args.temp is not None:
         words += ["--temp", f"{args.temp:g}"]
     for item in args.set:
         words += ["--set", item]

@@ -40,8 +40,8 @@ Examples
 
 from __future__ import annotations
 
-from .limits import (MAX_BITS, MAX_DECIMAL_EXPONENT, MAX_DIGITS, MAX_EXPONENT, MAX_LENGTH, MAX_NESTING, MAX_NODES,
-                     MAX_TERMS)
+from .limits import (MAX_BITS, MAX_DECIMAL_EXPONENT, MAX_DEPTH, MAX_DIGITS, MAX_EXPONENT, MAX_LENGTH, MAX_NESTING,
+                     MAX_NODES, MAX_TERMS)
 from .parsing import SUFFIXES, as_expr, parse_expression, parse_number, parse_value, try_parse_number
 from .tree import (FUNCTIONS, MINUS_ONE, ONE, ZERO, Call, Expr, Number, Power, Product, Sum, Symbol, add, call,
                    multiply, power, substitute)
@@ -75,6 +75,7 @@ __all__ = [
     "MAX_BITS",
     "MAX_NODES",
     "MAX_NESTING",
+    "MAX_DEPTH",
     "MAX_LENGTH",
     "MAX_TERMS",
 ]

@@ -13,7 +13,7 @@ Examples
 """
 
 __all__ = ["MAX_EXPONENT", "MAX_DECIMAL_EXPONENT", "MAX_DIGITS", "MAX_BITS", "MAX_NODES", "MAX_NESTING",
-           "MAX_LENGTH", "MAX_TERMS"]
+           "MAX_DEPTH", "MAX_LENGTH", "MAX_TERMS"]
 
 #: Largest magnitude of a numeric exponent (``x**64`` is already far beyond any real use).
 MAX_EXPONENT = 64
@@ -27,6 +27,8 @@ MAX_BITS = 4096
 MAX_NODES = 2000
 #: Deepest nesting of parentheses, signs and powers in one expression.
 MAX_NESTING = 60
+#: Deepest expression tree, however built (``.param`` steps that each wrap the last in parentheses).
+MAX_DEPTH = 120
 #: Longest expression text, in characters.
 MAX_LENGTH = 20_000
 #: Most monomials a value may expand into (:meth:`~symbias.expressions.Expr.terms`).

@@ -85,7 +85,8 @@ def try_parse_number(text: str) -> Number | None:
         # an exact 10**999999999 would take minutes to build; no real value is near it
         raise NetlistError(f"number {text.strip()!r} is out of range (exponent beyond +-{MAX_DECIMAL_EXPONENT})")
     if len(mantissa) > MAX_DIGITS:
-        raise LimitError(f"number {text.strip()[:20]!r}... has more than {MAX_DIGITS} characters")
+        raise LimitError(f"number {text.strip()[:20]!r}... has more than {MAX_DIGITS} characters (limit MAX_DIGITS); "
+                         "write it with an exponent (1.5e300)")
     value = Fraction(mantissa)
     letters = letters.lower()
     if letters.startswith("meg"):
@@ -143,7 +144,8 @@ class _Parser:
 
     def __init__(self, text: str, names: Mapping[str, Expr]):
         if len(text) > MAX_LENGTH:
-            raise LimitError(f"expression of {len(text)} characters is longer than {MAX_LENGTH} (limit MAX_LENGTH)")
+            raise LimitError(f"expression of {len(text)} characters is longer than {MAX_LENGTH} (limit MAX_LENGTH); "
+                             "split it into .param steps")
         self.text = text
         self.tokens = _tokenize(text)
         self.pos = 0
@@ -169,7 +171,7 @@ class _Parser:
         self.level += 1
         if self.level > MAX_NESTING:
             raise LimitError(f"expression {_short(self.text)!r} nests more than {MAX_NESTING} levels "
-                             "(limit MAX_NESTING)")
+                             "(limit MAX_NESTING); split it into .param steps")
 
     def parse(self) -> Expr:
         if not self.tokens:
@@ -208,7 +210,8 @@ class _Parser:
                 signs = -signs
             count += 1
             if count > MAX_NESTING:
-                raise LimitError(f"expression {_short(self.text)!r} has more than {MAX_NESTING} signs in a row")
+                raise LimitError(f"expression {_short(self.text)!r} has more than {MAX_NESTING} signs in a row "
+                                 "(limit MAX_NESTING); write one sign")
         value = self.power()
         return -value if signs < 0 else value
 
@@ -241,7 +244,7 @@ class _Parser:
                 self.level -= 1
                 self.expect(")")
                 return call(text, argument)
-            return self.names.get(text.lower(), Symbol(text))
+            return _named(text, self.names)
         if text == "(":
             self.deeper()
             value = self.sum()
@@ -249,6 +252,18 @@ class _Parser:
             self.expect(")")
             return value
         raise NetlistError(f"unexpected {text!r} in expression {_short(self.text)!r}")
+
+
+#: Words that read as names but mean a number that is not finite; refused rather than made symbols.
+_NOT_FINITE = frozenset({"nan", "inf", "infinity"})
+
+
+def _named(text: str, names: Mapping[str, Expr]) -> Expr:
+    """A ``.param`` value or a free symbol; ``nan`` and ``inf`` are refused (no value is infinite or undefined)."""
+    if text.lower() in _NOT_FINITE:
+        raise NetlistError(f"{text!r} is not a value: numbers must be finite (an open circuit is no element, a short a "
+                           "0 V source)")
+    return names.get(text.lower(), Symbol(text))
 
 
 def _finite_real(value: Expr, text: str) -> Expr:
@@ -311,5 +326,5 @@ def parse_value(text: str, names: Mapping[str, Expr] | None = None) -> Expr:
     if number is not None:
         return number
     if _NAME.fullmatch(text):
-        return (names or {}).get(text.lower(), Symbol(text))
+        return _named(text, names or {})
     raise NetlistError(f"expected a number, a name or {{expression}}, got {_short(text)!r}")

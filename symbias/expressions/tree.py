@@ -23,7 +23,7 @@ from fractions import Fraction
 from typing import Any, Iterable, Mapping
 
 from ..errors import LimitError, NetlistError
-from .limits import MAX_BITS, MAX_EXPONENT, MAX_NODES
+from .limits import MAX_BITS, MAX_DEPTH, MAX_EXPONENT, MAX_NODES
 
 __all__ = ["Expr", "Number", "Symbol", "Sum", "Product", "Power", "Call", "coerce", "substitute", "add", "multiply",
            "power", "call", "ZERO", "ONE", "MINUS_ONE", "FUNCTIONS"]
@@ -52,6 +52,9 @@ class Expr:
         if self.size > MAX_NODES:
             raise LimitError(f"expression has more than {MAX_NODES} nodes (limit MAX_NODES); "
                              "give the value as a number or split it into .param steps that reduce to numbers")
+        if self.depth > MAX_DEPTH:
+            raise LimitError(f"expression nests more than {MAX_DEPTH} levels (limit MAX_DEPTH), as .param steps that "
+                             "each wrap the last can build; give some intermediate values as numbers")
         self._hash = None
         self._text = None
 
@@ -238,8 +241,6 @@ class Number(Expr):
         return int(self.value)
 
 
-
-
 class Symbol(Expr):
     """A named free symbol (case kept).
 
@@ -264,8 +265,6 @@ class Symbol(Expr):
         return (self.name,)
 
 
-
-
 class Sum(Expr):
     """A sum of two or more terms (build with ``+``, not directly)."""
 
@@ -285,8 +284,6 @@ class Sum(Expr):
 
     def children(self):
         return self.args
-
-
 
 
 class Product(Expr):
@@ -310,8 +307,6 @@ class Product(Expr):
         return self.args
 
 
-
-
 class Power(Expr):
     """``base**exponent`` (build with ``**``, not directly)."""
 
@@ -331,8 +326,6 @@ class Power(Expr):
 
     def children(self):
         return (self.base, self.exponent)
-
-
 
 
 class Call(Expr):
@@ -356,15 +349,9 @@ class Call(Expr):
         return (self.argument,)
 
 
-
-
 ZERO = Number(0)
 ONE = Number(1)
 MINUS_ONE = Number(-1)
-
-
-
-
 
 
 def _split_coefficient(expr: Expr) -> tuple[Fraction, Expr]:
@@ -542,7 +529,8 @@ def power(base: Expr, exponent: Expr) -> Expr:
     if isinstance(exponent, Number):
         e = exponent.value
         if abs(e) > MAX_EXPONENT:
-            raise LimitError(f"exponent {e} is too large (limit MAX_EXPONENT = {MAX_EXPONENT})")
+            raise LimitError(f"exponent {e} is too large (limit MAX_EXPONENT = {MAX_EXPONENT}); write the value as a "
+                             "number or a product of smaller powers")
         if e == 0:
             return ONE
         if e == 1:
@@ -556,7 +544,8 @@ def power(base: Expr, exponent: Expr) -> Expr:
             if e.denominator == 1:
                 bits = max(b.numerator.bit_length(), b.denominator.bit_length()) * abs(int(e))
                 if bits > MAX_BITS:
-                    raise LimitError(f"the number {b}**{e} is too large (limit MAX_BITS = {MAX_BITS} bits)")
+                    raise LimitError(f"the number {b}**{e} is too large (limit MAX_BITS = {MAX_BITS} bits); write it "
+                                     "with an exponent (1e300)")
                 return Number(b ** int(e))
             # an exact rational root where there is one (sqrt(4) = 2), else an irrational constant
             if b > 0:

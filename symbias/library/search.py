@@ -111,7 +111,8 @@ def load_library(dirs: Iterable[str | Path] | None = None, *, extra_dirs: Iterab
     found: dict[str, Topology] = {}
     for folder in folders:
         if not folder.is_dir():
-            raise LibraryError("library folder does not exist", str(folder))
+            raise LibraryError("library folder does not exist" if not folder.exists() else "not a folder (a library "
+                               "folder holds topology .toml files)", str(folder))
         for file in sorted(folder.glob("*.toml")):
             topology = load_topology(file)
             if topology.id in found:
@@ -158,7 +159,8 @@ def _check_declared_once(identifier: str, chosen: Path, folders: Iterable[Path])
     pattern = re.compile(rf"^\s*id\s*=\s*[\"']{re.escape(identifier)}[\"']\s*(#.*)?$", re.M)
     for folder in folders:
         if not folder.is_dir():
-            raise LibraryError("library folder does not exist", str(folder))
+            raise LibraryError("library folder does not exist" if not folder.exists() else "not a folder (a library "
+                               "folder holds topology .toml files)", str(folder))
         for file in sorted(folder.glob("*.toml")):
             if file.resolve() != chosen.resolve() and pattern.search(file.read_text(encoding="utf-8")):
                 raise LibraryError(f"identifier {identifier!r} is already defined in {chosen}", str(file),

@@ -43,6 +43,7 @@ from ..circuit import GROUND
 from ..elements import BRANCH_PRIMITIVES, Primitive
 from ..errors import AnalysisError
 from ..expressions import ONE, Expr, Symbol
+from .limits import check_size, check_terms
 from .network import LinearNetwork
 from .polys import Ring, make_ring
 
@@ -454,7 +455,9 @@ def solve(problem: LinearProblem, backend: str | None = None) -> Solution:
         if label not in index:
             raise AnalysisError(f"{label.split(':', 1)[1]!r} is not a node or source of the network (ground?)",
                                 path=network.path)
+    check_size(network, len(labels))
     ring, variables, entries = build_system(network, backend)
+    check_terms(CofactorSolver, ring, entries, len(labels), network.path)
     solver = CofactorSolver(ring, len(labels), entries)
     det = solver.det()
     if det is None:

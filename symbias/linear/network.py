@@ -23,12 +23,12 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping
 
-from ..circuit import Circuit
+from ..circuit import Circuit, Element
 from ..devices.options import ExpansionContext, SmallSignalOptions, device_symbols
 from ..elements import KINDS, Primitive
 from ..errors import CircuitError
 from ..expressions import Symbol
-from ..symbols import Meaning, device_symbol
+from ..symbols import LAPLACE, Meaning, device_symbol
 
 __all__ = ["LinearNetwork", "expand", "bias_values", "matched_spread", "MATCH_TOLERANCE"]
 
@@ -101,8 +101,11 @@ def expand(circuit: Circuit, options: SmallSignalOptions | None = None) -> Linea
     context = ExpansionContext(circuit, options, device_symbols(circuit, options))
     primitives: list[Primitive] = []
     meanings: dict[str, Meaning] = {}
+    made: dict[str, tuple[str, Element]] = {}  # symbol the expansion named -> (owner, element)
+    written = _written_symbols(circuit)
     for element in circuit.elements:
         parts, element_meanings = KINDS[element.kind].hook("small_signal")(element, context)
+        _check_new_symbols(element, parts, context, written, made)
         primitives.extend(parts)
         for key, meaning in element_meanings.items():
             meanings.setdefault(key, meaning)
@@ -112,6 +115,46 @@ def expand(circuit: Circuit, options: SmallSignalOptions | None = None) -> Linea
             if node not in nodes:
                 nodes.append(node)
     return LinearNetwork(tuple(primitives), tuple(nodes), meanings, circuit.path)
+
+
+def _values_of(element: Element):
+    return ([element.value] if element.value is not None else []) + list(element.params.values())
+
+
+def _written_symbols(circuit: Circuit) -> dict[str, Element]:
+    """Every symbol written in the netlist -> the first element that uses it."""
+    found: dict[str, Element] = {}
+    for element in circuit.elements:
+        for value in _values_of(element):
+            for name in value.names:
+                found.setdefault(name, element)
+    return found
+
+
+def _check_new_symbols(element: Element, parts, context: ExpansionContext, written: Mapping[str, Element],
+                       made: dict[str, tuple[str, Element]]) -> None:
+    """Symbols an expansion names must be one-to-one with their owners and apart from the netlist's own.
+
+    A symbolic resistor ``ro_Q2`` beside a device ``Q2``, two resistors ``Ra+``
+    and ``Ra-`` (both ``Ra_``), or a netlist symbol ``s`` beside a capacitor
+    (the Laplace variable) would otherwise merge two quantities into one.
+    """
+    own = set().union(*(v.names for v in _values_of(element)))
+    device = context.symbols.get(element.key)
+    owner = element.name if device is None else (device.group or device.owner or element.name)
+    for part in parts:
+        for name in part.value.names - own:
+            mine = "the Laplace variable" if name == LAPLACE else owner
+            other = written.get(name)
+            if other is not None:
+                what = mine if name == LAPLACE else (f"a small-signal parameter of {element.name}" if device
+                                                     else f"the value of {element.name} (--symbolic)")
+                raise CircuitError(f"{other.name}: the symbol {name} is also the name given to {what}; rename it",
+                                   path=context.circuit.path, line=other.line)
+            first = made.setdefault(name, (mine, element))
+            if first[0] != mine:
+                raise CircuitError(f"{first[1].name} and {element.name} would share the symbol {name}: "
+                                   "rename one of them", path=context.circuit.path, line=element.line)
 
 
 def bias_values(

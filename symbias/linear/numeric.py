@@ -163,7 +163,7 @@ def solve_system(system: NumericSystem, values: Mapping[str, Any]) -> np.ndarray
 
     One LU solve per point, no refinement step: on the ill-conditioned
     regulated cascode a refinement in double precision does not reduce the
-    error (``tests/test_formula_routes.py``).
+    error (``tests/formula/test_formula_routes.py``).
 
     Raises
     ------

@@ -32,7 +32,7 @@ from .parasitics import with_parasitic_values
 from .quantities import Quantity, default_quantities
 from .targets import DesignInputs, Target
 
-__all__ = ["DeriveRequest", "DerivedQuantity", "Derivation", "derive", "value_at"]
+__all__ = ["DeriveRequest", "DerivedQuantity", "Derivation", "derive", "value_at", "check_printable"]
 
 
 @dataclass(frozen=True)
@@ -178,21 +178,47 @@ def derive(target: Target, request: DeriveRequest | None = None) -> Derivation:
     bias = bias_point(target, request.at_bias, request.options) if request.at_bias is not None else None
     if bias is not None:
         bias = with_parasitic_values(target, bias, request.options)
-    results = []
+    computed = []
     for quantity in wanted:
         function = QUANTITIES[quantity.kind][0]
         try:
-            formula = function(target.circuit, *quantity.arguments, options=request.options,
-                               backend=request.backend)
+            computed.append((quantity, function(target.circuit, *quantity.arguments, options=request.options,
+                                                backend=request.backend), None))
         except InfiniteResultError as err:  # an open port: report it and go on with the other quantities
-            results.append(DerivedQuantity(quantity, None, value=math.inf, infinite=err.reason))
-            continue
-        results.append(_extras(quantity, formula, request, bias, target))
+            computed.append((quantity, None, err.reason))
+    _check_assumptions(request, [formula for _, formula, _ in computed if formula is not None])
+    results = [_extras(quantity, formula, request, bias, target) if formula is not None
+               else DerivedQuantity(quantity, None, value=math.inf, infinite=reason)
+               for quantity, formula, reason in computed]
     return Derivation(target, request, tuple(results), bias)
+
+
+def _check_assumptions(request: DeriveRequest, formulas) -> None:
+    """``--assume`` statements must be used and speak of symbols some derived result has."""
+    if not request.assumptions:
+        return
+    if not (request.approximate or request.sensitivities or request.transfer_error):
+        raise AssumptionError("assumptions are used by --approx, --sensitivity and --mirror-error: add one of them "
+                              "or leave the assumptions out", path="--assume")
+    from ..approx import check_symbols
+
+    try:
+        check_symbols(request.assumptions, {s.name for formula in formulas for s in formula.symbols})
+    except AssumptionError as err:
+        raise err.located(path="--assume") from None
+
+
+_FEWER = "use fewer symbols (leave out --symbolic, a lower --level, --match) or numbers for free symbols"
 
 
 def _extras(quantity: Quantity, formula, request: DeriveRequest, bias: BiasPoint | None,
             target: Target) -> DerivedQuantity:
+    from ..limits import MAX_DERIVED_TERMS, check_terms
+
+    if request.approximate or request.sensitivities or request.transfer_error:
+        check_terms(sum(formula.nterms), MAX_DERIVED_TERMS, "MAX_DERIVED_TERMS",
+                    "--approx, --sensitivity and --mirror-error", _FEWER, formula.problem.network.path
+                    if formula.problem is not None else None)
     options = dict(defaults=request.default_assumptions, tolerance=request.tolerance, samples=request.samples,
                    seed=request.seed)
     try:
@@ -243,6 +269,37 @@ def _sensitivities(formula, request: DeriveRequest, approximation, bias: BiasPoi
                                     meanings=formula.meanings)
         point = model.centre() if model is not None else {}
     return sensitivities(formula, point), point
+
+
+def check_printable(derivation: Derivation, form: str = "json") -> None:
+    """Refuse to write out in ``form`` an exact result too large for it.
+
+    JSON and Markdown write up to :data:`~symbias.limits.MAX_PRINTED_TERMS`
+    terms; LaTeX and Python, which go through sympy, up to
+    :data:`~symbias.limits.MAX_TYPESET_TERMS`; the text form summarises any size.
+
+    Raises
+    ------
+    LimitError
+        Saying that the text form summarises such a result.
+
+    Examples
+    --------
+    >>> from symbias.pipeline.targets import load_target
+    >>> check_printable(derive(load_target("examples/simple_mirror.cir")), "latex")
+    """
+    from ..limits import MAX_PRINTED_TERMS, MAX_TYPESET_TERMS, check_terms
+
+    if form == "text":
+        return
+    typeset = form in ("latex", "python")
+    limit, name = (MAX_TYPESET_TERMS, "MAX_TYPESET_TERMS") if typeset else (MAX_PRINTED_TERMS, "MAX_PRINTED_TERMS")
+    for result in derivation.results:
+        if result.formula is None:  # an infinite result has nothing to write out
+            continue
+        check_terms(sum(result.formula.nterms), limit, name, f"writing it out as {form}",
+                    f"the text form summarises it{'; --json writes it' if typeset else ''}; or {_FEWER}",
+                    derivation.target.where)
 
 
 def value_at(formula, values: Mapping[str, float]) -> tuple[float | None, tuple[str, ...]]:

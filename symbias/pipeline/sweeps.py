@@ -29,11 +29,13 @@ Examples
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any, Callable
 
 from ..circuit import Circuit
 from ..errors import CircuitError, SymbiasError, UsageError
+from ..limits import check_points, temperature_problem
 from .targets import DesignInputs, Target
 
 __all__ = ["SweepRequest", "SweepResult", "BranchCheck", "run_sweep", "default_output", "TEMPERATURE", "METRICS"]
@@ -100,6 +102,14 @@ class SweepRequest:
     basis : {"tangent", "level"}
         Compliance: measure the departure from the tangent at mid-sweep or from its level.
 
+    Raises
+    ------
+    UsageError
+        Fewer than 2 points, a range that is not finite, a temperature outside
+        the models' range (:func:`symbias.limits.temperature_problem`).
+    LimitError
+        More than :data:`symbias.limits.MAX_SWEEP_POINTS` points.
+
     Examples
     --------
     >>> SweepRequest("temp", -40, 125).varies_temperature
@@ -119,6 +129,17 @@ class SweepRequest:
             raise UsageError(f"basis must be one of {', '.join(_BASES)}, got {self.basis!r}", path="--basis")
         if not 0 < self.fraction < 1:
             raise UsageError(f"fraction must be between 0 and 1, got {self.fraction:g}", path="--fraction")
+        if self.points < 2:
+            raise UsageError(f"a sweep needs at least 2 points, got {self.points}", path="--points")
+        check_points(self.points)
+        for value, flag in ((self.start, "--from"), (self.stop, "--to")):
+            if not math.isfinite(value):
+                raise UsageError(f"the sweep range must be finite, got {value}", path=flag)
+            if self.varies_temperature and temperature_problem(value) is not None:
+                raise UsageError(temperature_problem(value), path=flag)
+        if not math.isfinite(self.stop - self.start):
+            raise UsageError(f"the sweep range {self.start:g} .. {self.stop:g} is wider than floating point holds",
+                             path="--to")
 
     @property
     def varies_temperature(self) -> bool:

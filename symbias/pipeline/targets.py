@@ -155,7 +155,8 @@ def design_inputs(target: Target, process: Any = None, temperature: float = 27.0
     ProcessError
         When a process file cannot be read.
     UsageError
-        When a value names no free symbol of the circuit or of the topology's variables.
+        When a value names no free symbol of the circuit or of the topology's variables, or the
+        temperature is outside the range of :func:`symbias.limits.temperature_problem`.
 
     Examples
     --------
@@ -163,8 +164,12 @@ def design_inputs(target: Target, process: Any = None, temperature: float = 27.0
     >>> dict(inputs.values), inputs.temperature
     ({'RE': 2000.0}, 85.0)
     """
+    from ..limits import temperature_problem
     from ..process import Process, load_process
 
+    problem = temperature_problem(temperature)
+    if problem is not None:
+        raise UsageError(problem, path="--temp")
     numbers = {v.name: float(v.value) for v in (target.topology.variables if target.topology is not None else ())}
     given = dict(values or {})
     _check_names(target, given)

@@ -20,7 +20,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["operating_point_tables", "operating_point_renderables", "states_renderables", "state_lines",
            "sweep_renderables", "points_table", "render_to_string"]
@@ -54,7 +54,7 @@ def device_tables(op) -> list[Any]:
         for label, _, unit in first.table():
             table.add_column(Text(f"{label} [{unit}]"), justify="right", no_wrap=True)
         for dev in devices:
-            table.add_row(dev.name, dev.type, dev.region, *(_cell(value, unit) for _, value, unit in dev.table()))
+            table.add_row(escaped(dev.name), dev.type, dev.region, *(_cell(value, unit) for _, value, unit in dev.table()))
         tables.append(table)
     return tables
 
@@ -88,7 +88,7 @@ def operating_point_tables(op, circuit=None) -> list[Any]:
         for column, justify in (("output", "left"), (Text("I [A]"), "right"), ("sign", "left")):
             table.add_column(column, justify=justify)
         for current, value in rows:
-            table.add_row(current.label, engineering(value), f"positive: {current.meaning}")
+            table.add_row(Text(current.label), engineering(value), f"positive: {current.meaning}")
         out.append(table)
     return out + device_tables(op)
 
@@ -120,13 +120,15 @@ def state_lines(states) -> list[str]:
 def operating_point_renderables(target, op) -> list[Any]:
     """Header, the states found, the tables and the caution."""
     steps = f", {op.iterations} iterations" if op.method != "ngspice" else " with the netlist's model cards"
-    header = f"[bold]{target.title}[/bold]  ({target.where}, {op.temperature:g} degC, {op.method}{steps})"
+    header = (f"[bold]{escaped(target.title)}[/bold]  ({escaped(target.where)}, {op.temperature:g} degC, "
+              f"{op.method}{steps})")
     return [header, *state_lines(op.states), *operating_point_tables(op, target.circuit), f"[dim]{CAUTION}[/dim]"]
 
 
 def states_renderables(target, found, temperature: float) -> list[Any]:
     """Every DC state with its tables; a zero-current state flagged as needing start-up."""
-    out: list[Any] = [f"[bold]{target.title}[/bold]: {len(found.states)} DC solution(s) at {temperature:g} degC"]
+    out: list[Any] = [f"[bold]{escaped(target.title)}[/bold]: {len(found.states)} DC solution(s) at "
+                      f"{temperature:g} degC"]
     for i, state in enumerate(found.states, start=1):
         flag = "  [bold red]zero-current state: needs a start-up circuit[/bold red]" if state.zero_current else ""
         out.append(f"\n[bold]Solution {i}[/bold]: supply current {engineering(state.supply_current, 'A')}, "
@@ -189,7 +191,8 @@ def sweep_renderables(target, result, table: bool = False) -> list[Any]:
     units = result.units()
     for key, value in result.metrics.to_dict().items():
         label = METRICS[result.kind].get(key, (key, ""))[0]
-        metrics.add_row(label if label == key else f"{label} ({key})", _metric_text(value), units.get(key, ""))
+        metrics.add_row(escaped(label if label == key else f"{label} ({key})"), escaped(_metric_text(value)),
+                        escaped(units.get(key, "")))
     out: list[Any] = [header, *_branch_lines(result), metrics]
     if table:
         out.append(points_table(result))

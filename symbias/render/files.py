@@ -67,23 +67,44 @@ def check_destination(path: str | Path, suffixes: Iterable[str] | None = None, o
 def write_atomic(path: str | Path, write: Callable[[Path], None], option: str = "--output") -> None:
     """Call ``write(temporary_path)`` and rename the result onto ``path`` (all or nothing).
 
+    The temporary file lives in the destination folder (so the rename is
+    atomic), takes the old file's permissions (or the usual ones for a new
+    file), and is removed whatever happens.  A symbolic link is written
+    through: the file it points at is replaced, the link stays.
+
     Raises
     ------
     OutputError
         When the file cannot be written; ``path`` is then as it was before.
     """
     target = check_destination(path, option=option)
+    if target.is_symlink():
+        target = Path(os.path.realpath(target))
     folder = target.parent if str(target.parent) else Path(".")
-    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=folder)
+    try:
+        handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=folder)
+    except OSError as err:
+        raise OutputError(f"cannot write {path}: {err.strerror or err}", path=option) from None
     os.close(handle)
     try:
+        os.chmod(temporary, _mode_for(target))
         write(Path(temporary))
         os.replace(temporary, target)
     except OSError as err:
         raise OutputError(f"cannot write {path}: {err.strerror or err}", path=option) from None
     finally:
-        if os.path.exists(temporary):
+        if os.path.lexists(temporary):
             os.unlink(temporary)
+
+
+def _mode_for(target: Path) -> int:
+    """Permissions of the file being replaced, else those a new file gets under the umask."""
+    try:
+        return target.stat().st_mode & 0o7777
+    except FileNotFoundError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
 
 
 def write_text(path: str | Path, text: str, option: str = "--output") -> None:

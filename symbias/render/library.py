@@ -14,7 +14,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .console import CAUTION, render_to_string
+from .console import CAUTION, escaped, render_to_string
 from .text import formula_panel
 
 __all__ = ["listing_table", "topology_renderables", "render_to_string"]
@@ -30,7 +30,7 @@ def listing_table(rows) -> Any:
     for row in rows:
         t = row.topology
         headroom = t.headroom.get("output") or (f"supply >= {t.headroom['supply']}" if "supply" in t.headroom else "")
-        table.add_row(t.id, t.title, t.family, row.devices, headroom, row.rout)
+        table.add_row(*(escaped(cell) for cell in (t.id, t.title, t.family, row.devices, headroom, row.rout)))
     return table
 
 
@@ -48,9 +48,9 @@ def topology_renderables(description) -> list[Any]:
     ]
     roles = Table(title="roles", show_header=False, box=None)
     for key, value in topology.roles.items():
-        roles.add_row(key, ", ".join(value) if isinstance(value, (list, tuple)) else value)
+        roles.add_row(escaped(key), escaped(", ".join(value) if isinstance(value, (list, tuple)) else value))
     for key, value in topology.headroom.items():
-        roles.add_row(f"headroom ({key})", value)
+        roles.add_row(escaped(f"headroom ({key})"), escaped(value))
     out.append(roles)
     if topology.variables:
         variables = Table(title="design variables")
@@ -58,7 +58,7 @@ def topology_renderables(description) -> list[Any]:
             variables.add_column(column, overflow="fold")
         for v in topology.variables:
             rule = v.rule + (f"  [{v.expr}]" if v.expr else "")
-            variables.add_row(v.name, v.default, v.unit, Text(rule.replace("**", "^")))  # one power syntax
+            variables.add_row(*(escaped(cell, None) for cell in (v.name, v.default, v.unit, rule.replace("**", "^"))))
         out.append(variables)
     if description.derivation is not None:
         for result, leading in zip(description.derivation.results, description.leading):

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .console import CAUTION, engineering, ratio_text, render_to_string, terminal_console
+from .console import CAUTION, engineering, escaped, ratio_text, render_to_string, terminal_console
 
 __all__ = [
     "formula_panel",
@@ -217,7 +217,7 @@ def _infinite_panel(result) -> Any:
 
 def derivation_renderables(derivation) -> list[Any]:
     """Header, one panel per quantity (with its approximation, value and error rows), sensitivity tables."""
-    out: list[Any] = [f"[bold]{derivation.target.title}[/bold]  ({derivation.target.where})"]
+    out: list[Any] = [f"[bold]{escaped(derivation.target.title)}[/bold]  ({escaped(derivation.target.where)})"]
     bias = derivation.bias
     if bias is not None and bias.point.states is not None and bias.point.states.several:
         from .dc import state_lines
@@ -242,6 +242,7 @@ def derivation_renderables(derivation) -> list[Any]:
         out.append(formula_panel(result.formula, rows))
         if result.sensitivities:
             point = ", ".join(f"{k}={v:.3g}" for k, v in (result.sensitivity_point or {}).items())
-            out.append(sensitivity_table(result.sensitivities, title=f"sensitivities S = (x/F) dF/dx at {point}"))
+            out.append(sensitivity_table(result.sensitivities,
+                                         title=f"sensitivities S = (x/F) dF/dx at {escaped(point, 400)}"))
     out.append(f"[dim]{CAUTION}[/dim]")
     return out

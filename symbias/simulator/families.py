@@ -4,7 +4,7 @@ Data for the simulator's operating point (:mod:`symbias.simulator.operating_poin
 ngspice reports the linearisation of every device after ``op`` as instance
 parameters (``@m1[gm]``); their names depend on the model's family, found here
 from the card's type and ``LEVEL``.  The names were read from ngspice 39's
-``show`` output for each family (``tests/test_simulator_families.py`` checks
+``show`` output for each family (``tests/simulator/test_simulator_op.py`` checks
 that every name below exists there).
 
 The mapping onto symbias's symbols (see ``docs/dc.md``):
