@@ -39,7 +39,11 @@ def register(subparsers) -> None:
     add_target_argument(p)
     add_design_arguments(p)
     add_bias_source_arguments(p)
-    p.add_argument("--samples", type=int, default=400, metavar="N", help="Monte Carlo samples (default 400)")
+    p.add_argument("--spec", metavar="FILE",
+                   help="rank the library against this spec and add the ranking section (its process and the "
+                        "candidate's sizing are used where --process and --set give none)")
+    p.add_argument("--samples", type=int, default=400, metavar="N",
+                   help="Monte Carlo samples of the note (and per candidate of the ranking; default 400)")
     p.add_argument("--seed", type=int, default=1, help="seed of the Monte Carlo samples (default 1)")
     p.add_argument("--output", "-o", metavar="DIR", required=True,
                    help="folder to write into (made when missing; its parent must exist)")
@@ -53,6 +57,8 @@ def command_line(args: argparse.Namespace) -> str:
         words += ["--library", folder]
     if args.process:
         words += ["--process", args.process]
+    if args.spec:
+        words += ["--spec", args.spec]
     if args.temp is not None:
         words += ["--temp", f"{args.temp:g}"]
     for item in args.set:
@@ -83,9 +89,12 @@ def run(args: argparse.Namespace) -> int:
         raise OutputError(f"cannot write {folder}: the folder {folder.parent} does not exist", path="--output")
     target = target_of(args)
     inputs = inputs_of(args, target)
-    files = tuple(f for f in (args.process,) if f)
+    ranking = None
+    if args.spec:
+        ranking, inputs = _ranked(args, target, inputs)
+    files = tuple(f for f in (args.process, args.spec) if f)
     request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files)
-    note = build_note(target, inputs, request)
+    note = build_note(target, inputs, request, ranking)
     deck = signoff_deck(target, inputs, "signoff", note.sweeps)
     folder.mkdir(exist_ok=True)
     written = write_note(note, folder)
@@ -93,3 +102,26 @@ def run(args: argparse.Namespace) -> int:
     print(f"wrote {len(written) + 1} files to {folder}: {', '.join(p.name for p in written[-3:])}, {DECK_NAME} "
           "and the figures")
     return 0
+
+
+def _ranked(args: argparse.Namespace, target, inputs):
+    """The ranking against ``--spec`` (as the note reads it) and the inputs with the spec's process and the
+    candidate's sizing where the arguments give none."""
+    from dataclasses import replace
+
+    from ..design.candidates import spec_process
+    from ..design.rank import rank_candidates
+    from ..design.spec import load_spec
+    from ..note import ranking_summary
+    from .common import parse_assignments
+
+    spec = load_spec(args.spec)
+    ranking = rank_candidates(spec, library=tuple(args.library), samples=args.samples, seed=args.seed)
+    process = inputs.process if args.process else spec_process(spec)
+    sized = {}
+    if target.topology is not None:
+        known = {v.name for v in target.topology.variables}
+        found = next((c for c in ranking.candidates if c.id == target.topology.id), None)
+        sized = {k: v for k, v in (found.sizing if found is not None else {}).items() if k in known}
+    values = {**inputs.values, **sized, **parse_assignments(args.set, "--set")}
+    return ranking_summary(ranking), replace(inputs, process=process, values=values)

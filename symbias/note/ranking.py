@@ -87,7 +87,7 @@ def ranking_section(summary: RankingSummary, chosen: str) -> Section:
         label = f"**{c.id}**" if c.id == chosen else c.id
         cells = [label, str(c.rank) if c.rank is not None else "-", "yes" if c.feasible else "no",
                  Number(c.score, "1", digits=3)]
-        cells += [Number(*c.metrics[n]) if n in c.metrics else "-" for n in names]
+        cells += [Number(*c.metrics[n], percent=n.endswith("_error")) if n in c.metrics else "-" for n in names]
         rows.append(tuple(cells))
     blocks: list = [Paragraph(f"Verdict: {summary.verdict}."), Table(header, tuple(rows), "Candidates")]
     plot = _trade_off(summary, chosen)

@@ -265,3 +265,22 @@ def test_an_unplaced_element_is_named_at_the_place_table():
     number = text.splitlines().index("[schematic.place]") + 1
     with pytest.raises(LibraryError, match=rf"^mine.toml:{number}: schematic: element Vout has no place"):
         parse_topology(text, "mine.toml")
+
+
+def test_a_ranking_from_the_engine_becomes_the_ranking_section():
+    from symbias.design.rank import rank_candidates
+    from symbias.note import ranking_summary
+    from symbias.note.ranking import ranking_section
+
+    ranking = rank_candidates(Path(__file__).parents[2] / "examples" / "sensor_bias_spec.toml",
+                              only=("mos-wide-swing-cascode-mirror", "mos-simple-mirror"), samples=50)
+    summary = ranking_summary(ranking)
+    section = ranking_section(summary, "mos-wide-swing-cascode-mirror")
+    rows = {row[0].strip("*"): row for row in section.blocks[1].rows}
+    assert set(rows) == {"mos-wide-swing-cascode-mirror", "mos-simple-mirror"}
+    for candidate in ranking.candidates:
+        shown = rows[candidate.id]
+        assert shown[2] == ("yes" if candidate.feasible else "no")
+        rout = section.blocks[1].header.index("rout")
+        assert shown[rout].value == candidate.metrics["rout"].value
+    assert summary.verdict == ranking.verdict
