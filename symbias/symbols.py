@@ -57,6 +57,7 @@ __all__ = [
     "ohm_power",
     "unit_of",
     "latex_name",
+    "QUANTITY_LATEX",
     "passive_meaning",
     "controlled_meaning",
     "device_meaning",
@@ -277,6 +278,17 @@ def ohm_power(name: str, meanings: Mapping[str, object] | None = None) -> int | 
 
 def _subscript(text: str) -> str:
     return text.replace("_", r"\_")
+
+
+#: LaTeX symbol of each small-signal quantity (exact results, approximations, design notes).
+QUANTITY_LATEX = {
+    "output_resistance": r"R_{\mathrm{out}}",
+    "current_gain": r"A_i",
+    "voltage_gain": r"A_v",
+    "transconductance": r"G_m",
+    "transimpedance": r"Z_t",
+    "transfer_error": r"\varepsilon",
+}
 
 
 def latex_name(name: str) -> str:

@@ -48,6 +48,7 @@ from .fields import (
     check_year,
 )
 from ..tomlfile import KeyLines, read_toml
+from .schematic import read_schematic
 from .topology import ExpectedFormula, Reference, Topology, Variable, netlist_circuit, remember_circuit, sizing_problem
 
 __all__ = ["parse_topology", "load_topology", "identifier_line", "CACHE_SIZE"]
@@ -69,6 +70,7 @@ _ROOT_KEYS = {
     "variables": (False, list, "an array of tables [[variables]]"),
     "references": (True, list, "an array of tables [[references]]"),
     "formulas": (False, list, "an array of tables [[formulas]]"),
+    "schematic": (False, dict, "a table [schematic]"),
 }
 _ROLE_KEYS = {
     "input": (False, str, "an element name"),
@@ -192,6 +194,10 @@ def _parse_kept(text: str, path: str | None) -> Topology:
     _check_sizing(variables, family, lines, where)
     with _at(where, lines.of("options")):
         options = check_options(data.get("options", {}))
+    schematic = None
+    if "schematic" in data:
+        with _at(where, lines.headers.get(("schematic", None)) or lines.of("schematic")):
+            schematic = read_schematic(data["schematic"], circuit, lines)
     with _at(where, 1):
         topology = Topology(
             id=data["id"],
@@ -208,6 +214,7 @@ def _parse_kept(text: str, path: str | None) -> Topology:
             options=options,
             path=path,
             netlist_line=netlist_line,
+            schematic=schematic,
         )
     return remember_circuit(topology, circuit)
 

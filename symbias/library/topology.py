@@ -346,7 +346,8 @@ class Topology:
     maps ``output`` (compliance), ``input`` and ``supply`` to expression
     strings.  ``netlist_line`` is the file line of the netlist's title; its
     other lines follow on consecutive lines, so the circuit's element lines are
-    file lines.
+    file lines.  ``schematic`` is the placement of its elements for a drawing
+    (:class:`~symbias.library.schematic.Schematic`), or None.
 
     The circuit is parsed once, on first use (a pure function of the frozen
     fields, so the kept result never goes stale).
@@ -366,6 +367,7 @@ class Topology:
     options: Mapping[str, Any] = field(default_factory=dict)
     path: str | None = None
     netlist_line: int = 1
+    schematic: Any = None
 
     def __post_init__(self) -> None:
         try:
