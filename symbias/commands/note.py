@@ -31,9 +31,11 @@ def register(subparsers) -> None:
         help="write the design note (Markdown, HTML, LaTeX, figures) and its sign-off deck into a folder",
         description="Write the design note of a circuit into a folder: purpose, schematic, netlist and roles, "
         "exact and leading-order output resistance and transfer, the DC ratio and its error budget (systematic "
-        "by cause, random by device with a Monte Carlo histogram), sensitivities, operating points per corner, "
-        "compliance, temperature and supply curves, cautions; as note.md, note.html (standalone, math as "
-        "MathML), note.tex (a body for \\input) and PNG/SVG figures, with signoff.cir for ngspice beside them.",
+        "by cause, random by device with a Monte Carlo histogram), sensitivities, output impedance (a "
+        "reference's supply rejection) over frequency with its poles and zeros, output noise with the devices "
+        "ranked (at the spec's noise_frequency, else 1 kHz), operating points per corner, compliance, "
+        "temperature and supply curves, cautions; as note.md, note.html (standalone, math as MathML), note.tex "
+        "(a body for \\input) and PNG/SVG figures, with signoff.cir for ngspice beside them.",
         epilog="Sign-off rests on your foundry's models in your simulator, and on measurement.",
     )
     add_target_argument(p)
@@ -89,11 +91,12 @@ def run(args: argparse.Namespace) -> int:
         raise OutputError(f"cannot write {folder}: the folder {folder.parent} does not exist", path="--output")
     target = target_of(args)
     inputs = inputs_of(args, target)
-    ranking = None
+    ranking, noise_frequency = None, None
     if args.spec:
-        ranking, inputs = _ranked(args, target, inputs)
+        ranking, inputs, noise_frequency = _ranked(args, target, inputs)
     files = tuple(f for f in (args.process, args.spec) if f)
-    request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files)
+    request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files,
+                          **({"noise_frequency": noise_frequency} if noise_frequency is not None else {}))
     note = build_note(target, inputs, request, ranking)
     deck = signoff_deck(target, inputs, "signoff", note.sweeps)
     folder.mkdir(exist_ok=True)
@@ -105,8 +108,8 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _ranked(args: argparse.Namespace, target, inputs):
-    """The ranking against ``--spec`` (as the note reads it) and the inputs with the spec's process and the
-    candidate's sizing where the arguments give none."""
+    """The ranking against ``--spec`` (as the note reads it), the inputs with the spec's process and the
+    candidate's sizing where the arguments give none, and the spec's noise frequency (or None)."""
     from dataclasses import replace
 
     from ..design.candidates import spec_process
@@ -124,4 +127,4 @@ def _ranked(args: argparse.Namespace, target, inputs):
         found = next((c for c in ranking.candidates if c.id == target.topology.id), None)
         sized = {k: v for k, v in (found.sizing if found is not None else {}).items() if k in known}
     values = {**inputs.values, **sized, **parse_assignments(args.set, "--set")}
-    return ranking_summary(ranking), replace(inputs, process=process, values=values)
+    return ranking_summary(ranking), replace(inputs, process=process, values=values), spec.limits.noise_frequency
