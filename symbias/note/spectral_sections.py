@@ -45,11 +45,11 @@ def frequency_request(context: NoteContext):
 
 
 def noise_request(context: NoteContext):
-    """The noise analysis a note runs: numbers only, ranked at the note's noise frequency."""
+    """The noise analysis a note runs: at the note's output, numbers only, ranked at the note's noise frequency."""
     from ..pipeline.noise import NoiseRequest
 
-    return NoiseRequest(per_decade=context.request.spectral_per_decade, at=context.request.noise_frequency,
-                        closed_form=False)
+    return NoiseRequest(output=context.output, per_decade=context.request.spectral_per_decade,
+                        at=context.request.noise_frequency, closed_form=False)
 
 
 def _hz(value: float) -> str:
