@@ -176,3 +176,23 @@ def test_an_analysis_that_cannot_be_done_gives_one_sentence_with_its_reason(tmp_
 def test_bad_spectral_requests_are_refused(field, value):
     with pytest.raises(UsageError):
         NoteRequest(**{field: value})
+
+
+def test_the_note_command_ranks_noise_at_the_spec_noise_frequency(tmp_path, monkeypatch, capsys):
+    from pathlib import Path
+
+    from symbias.cli import main
+    from symbias.design import rank
+
+    spec = (Path(__file__).parents[2] / "examples" / "sensor_bias_spec.toml").read_text()
+    spec = spec.replace('process = "demo"', f'process = "{demo_process_path()}"')
+    spec = spec.replace("[limits]\n", '[limits]\nnoise_max = "20pA/sqrt(Hz)"\nnoise_frequency = "20k"\n')
+    (tmp_path / "spec.toml").write_text(spec)
+    ranked = rank.rank_candidates  # the whole library takes long; two candidates make the same note section
+    monkeypatch.setattr(rank, "rank_candidates", lambda spec, **kw: ranked(spec, **kw, only=(
+        "mos-wide-swing-cascode-mirror", "mos-simple-mirror")))
+    assert main(["note", "mos-simple-mirror", "--spec", str(tmp_path / "spec.toml"), "--samples", "20",
+                 "-o", str(tmp_path / "note")]) == 0
+    capsys.readouterr()
+    text = (tmp_path / "note" / "note.md").read_text()
+    assert "*Contributions at 20 kHz, largest first*" in text and "| density at 20 kHz |" in text
