@@ -106,15 +106,30 @@ def _frequency_plots(result, label: str, unit: str) -> tuple[Figure, Figure]:
             Figure(phase, f"Phase of {label} against frequency at the operating point."))
 
 
+def _analysed(analysis, context: NoteContext, request, key: str, title: str):
+    """``(result, None)`` of a pipeline analysis at the note's operating point, or ``(None, section)`` saying
+    in one sentence why it could not be done."""
+    try:
+        return analysis(context.target, context.inputs, request, point=context.point), None
+    except SymbiasError as err:
+        return None, Section(key, title, (Paragraph(f"Not computed: {err.reason}."),))
+
+
+def _with_notes(key: str, title: str, blocks: list, notes) -> Section:
+    """The section, with the model parts the analysis left out (and why) after its blocks."""
+    if notes:
+        blocks.append(Paragraph("Left out of the model: " + "; ".join(notes) + "."))
+    return Section(key, title, tuple(blocks))
+
+
 def frequency_section(context: NoteContext) -> Section:
     """The default frequency quantity at the operating point: value, -3 dB point, poles and zeros, plots."""
     from ..pipeline.frequency import frequency_analysis
 
     request = frequency_request(context)
-    try:
-        result = frequency_analysis(context.target, context.inputs, request, point=context.point)
-    except SymbiasError as err:
-        return Section("frequency", _FREQUENCY_TITLE, (Paragraph(f"Not computed: {err.reason}."),))
+    result, failed = _analysed(frequency_analysis, context, request, "frequency", _FREQUENCY_TITLE)
+    if failed is not None:
+        return failed
     response, label, unit = result.response, result.formula.label, result.formula.unit
     rows = _magnitude_rows(response, label, unit)
     if not len(response.poles) and not len(response.zeros):
@@ -135,9 +150,7 @@ def frequency_section(context: NoteContext) -> Section:
         Table(("root", "frequency", "where", "Q"), _root_rows(response), f"Poles and zeros of {label}"),
         *_frequency_plots(result, label, unit),
     ]
-    if result.notes:
-        blocks.append(Paragraph("Left out of the model: " + "; ".join(result.notes) + "."))
-    return Section("frequency", _FREQUENCY_TITLE, tuple(blocks))
+    return _with_notes("frequency", _FREQUENCY_TITLE, blocks, result.notes)
 
 
 def _noise_rows(result) -> tuple:
@@ -175,10 +188,9 @@ def noise_section(context: NoteContext) -> Section:
     from ..pipeline.noise import noise_analysis
 
     request = noise_request(context)
-    try:
-        result = noise_analysis(context.target, context.inputs, request, point=context.point)
-    except SymbiasError as err:
-        return Section("noise", _NOISE_TITLE, (Paragraph(f"Not computed: {err.reason}."),))
+    result, failed = _analysed(noise_analysis, context, request, "noise", _NOISE_TITLE)
+    if failed is not None:
+        return failed
     spectrum = result.spectrum
     at = float(spectrum.frequencies[spectrum.index(request.at)])
     ranked = tuple((row.element, row.kind, Number(row.density, spectrum.output.unit), Number(row.share, percent=True))
@@ -194,6 +206,4 @@ def noise_section(context: NoteContext) -> Section:
               f"Contributions at {_hz(at)}, largest first"),
         _noise_plot(result),
     ]
-    if result.notes:
-        blocks.append(Paragraph("Left out of the model: " + "; ".join(result.notes) + "."))
-    return Section("noise", _NOISE_TITLE, tuple(blocks))
+    return _with_notes("noise", _NOISE_TITLE, blocks, result.notes)
