@@ -105,23 +105,10 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _ranked(args: argparse.Namespace, target, inputs):
-    """The ranking against ``--spec`` (as the note reads it) and the inputs with the spec's process and the
-    candidate's sizing where the arguments give none."""
-    from dataclasses import replace
-
-    from ..design.candidates import spec_process
-    from ..design.rank import rank_candidates
+    """The ranking against ``--spec`` and the inputs the note then uses (:func:`symbias.note.ranking.ranked_inputs`)."""
     from ..design.spec import load_spec
-    from ..note import ranking_summary
+    from ..note.ranking import ranked_inputs
     from .common import parse_assignments
 
-    spec = load_spec(args.spec)
-    ranking = rank_candidates(spec, library=tuple(args.library), samples=args.samples, seed=args.seed)
-    process = inputs.process if args.process else spec_process(spec)
-    sized = {}
-    if target.topology is not None:
-        known = {v.name for v in target.topology.variables}
-        found = next((c for c in ranking.candidates if c.id == target.topology.id), None)
-        sized = {k: v for k, v in (found.sizing if found is not None else {}).items() if k in known}
-    values = {**inputs.values, **sized, **parse_assignments(args.set, "--set")}
-    return ranking_summary(ranking), replace(inputs, process=process, values=values)
+    return ranked_inputs(load_spec(args.spec), target, inputs, library=args.library, samples=args.samples,
+                         seed=args.seed, process_given=bool(args.process), settings=parse_assignments(args.set, "--set"))
