@@ -75,18 +75,14 @@ def run(args: argparse.Namespace) -> int:
     """Build the note and its deck, then write them."""
     from pathlib import Path
 
-    from ..errors import OutputError
     from ..note import NoteRequest, build_note
     from ..pipeline.decks import signoff_deck
-    from ..render.files import write_text
+    from ..render.files import check_folder, write_folder, write_text
     from ..render.note_files import write_note
     from .common import inputs_of, target_of
 
     folder = Path(args.output)
-    if folder.exists() and not folder.is_dir():
-        raise OutputError(f"{folder} is a file; give a folder", path="--output")
-    if not folder.parent.is_dir():
-        raise OutputError(f"cannot write {folder}: the folder {folder.parent} does not exist", path="--output")
+    check_folder(folder)  # before any work
     target = target_of(args)
     inputs = inputs_of(args, target)
     ranking = None
@@ -96,9 +92,13 @@ def run(args: argparse.Namespace) -> int:
     request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files)
     note = build_note(target, inputs, request, ranking)
     deck = signoff_deck(target, inputs, "signoff", note.sweeps)
-    folder.mkdir(exist_ok=True)
-    written = write_note(note, folder)
-    write_text(folder / DECK_NAME, deck, "--output")
+
+    def fill(staging: Path) -> tuple[Path, ...]:
+        written = write_note(note, staging)
+        write_text(staging / DECK_NAME, deck, "--output")
+        return written
+
+    written = write_folder(folder, fill, "--output")
     print(f"wrote {len(written) + 1} files to {folder}: {', '.join(p.name for p in written[-3:])}, {DECK_NAME} "
           "and the figures")
     return 0
