@@ -77,18 +77,14 @@ def run(args: argparse.Namespace) -> int:
     """Build the note and its deck, then write them."""
     from pathlib import Path
 
-    from ..errors import OutputError
     from ..note import NoteRequest, build_note
     from ..pipeline.decks import signoff_deck
-    from ..render.files import write_text
+    from ..render.files import check_folder, write_folder, write_text
     from ..render.note_files import write_note
     from .common import inputs_of, target_of
 
     folder = Path(args.output)
-    if folder.exists() and not folder.is_dir():
-        raise OutputError(f"{folder} is a file; give a folder", path="--output")
-    if not folder.parent.is_dir():
-        raise OutputError(f"cannot write {folder}: the folder {folder.parent} does not exist", path="--output")
+    check_folder(folder)  # before any work
     target = target_of(args)
     inputs = inputs_of(args, target)
     ranking, noise_frequency = None, None
@@ -99,32 +95,26 @@ def run(args: argparse.Namespace) -> int:
                           **({"noise_frequency": noise_frequency} if noise_frequency is not None else {}))
     note = build_note(target, inputs, request, ranking)
     deck = signoff_deck(target, inputs, "signoff", note.sweeps)
-    folder.mkdir(exist_ok=True)
-    written = write_note(note, folder)
-    write_text(folder / DECK_NAME, deck, "--output")
+
+    def fill(staging: Path) -> tuple[Path, ...]:
+        written = write_note(note, staging)
+        write_text(staging / DECK_NAME, deck, "--output")
+        return written
+
+    written = write_folder(folder, fill, "--output")
     print(f"wrote {len(written) + 1} files to {folder}: {', '.join(p.name for p in written[-3:])}, {DECK_NAME} "
           "and the figures")
     return 0
 
 
 def _ranked(args: argparse.Namespace, target, inputs):
-    """The ranking against ``--spec`` (as the note reads it), the inputs with the spec's process and the
-    candidate's sizing where the arguments give none, and the spec's noise frequency (or None)."""
-    from dataclasses import replace
-
-    from ..design.candidates import spec_process
-    from ..design.rank import rank_candidates
+    """The ranking against ``--spec``, the inputs the note then uses (:func:`symbias.note.ranking.ranked_inputs`)
+    and the spec's noise frequency (None when it sets none)."""
     from ..design.spec import load_spec
-    from ..note import ranking_summary
+    from ..note.ranking import ranked_inputs
     from .common import parse_assignments
 
     spec = load_spec(args.spec)
-    ranking = rank_candidates(spec, library=tuple(args.library), samples=args.samples, seed=args.seed)
-    process = inputs.process if args.process else spec_process(spec)
-    sized = {}
-    if target.topology is not None:
-        known = {v.name for v in target.topology.variables}
-        found = next((c for c in ranking.candidates if c.id == target.topology.id), None)
-        sized = {k: v for k, v in (found.sizing if found is not None else {}).items() if k in known}
-    values = {**inputs.values, **sized, **parse_assignments(args.set, "--set")}
-    return ranking_summary(ranking), replace(inputs, process=process, values=values), spec.limits.noise_frequency
+    summary, inputs = ranked_inputs(spec, target, inputs, library=args.library, samples=args.samples, seed=args.seed,
+                                    process_given=bool(args.process), settings=parse_assignments(args.set, "--set"))
+    return summary, inputs, spec.limits.noise_frequency

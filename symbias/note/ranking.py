@@ -29,7 +29,7 @@ from typing import Any, Mapping
 
 from .model import Curve, Figure, Marker, Number, Paragraph, Plot, Section, Table
 
-__all__ = ["CandidateRow", "RankingSummary", "ranking_summary", "ranking_section", "TRADE_OFF"]
+__all__ = ["CandidateRow", "RankingSummary", "ranking_summary", "ranking_section", "ranked_inputs", "TRADE_OFF"]
 
 #: Metrics plotted against each other, the first pair every candidate has wins.
 TRADE_OFF = (("headroom", "rout"), ("headroom", "random_error"), ("area", "rout"), ("supply_current", "rout"))
@@ -119,3 +119,31 @@ def _why(summary: RankingSummary, chosen: str) -> str:
     if row.feasible:
         return f"{chosen} meets every limit of the spec (rank {row.rank}); {summary.best} scores higher."
     return f"{chosen} does not meet the spec: " + "; ".join(row.violations) + "."
+
+
+def ranked_inputs(spec: Any, target: Any, inputs: Any, *, library=(), samples: int = 400, seed: int = 0,
+                  process_given: bool = False, settings: Mapping[str, float] | None = None):
+    """Rank the library against ``spec`` for a note on ``target``: the summary and the inputs the note uses.
+
+    The inputs take the spec's process (unless one was given) and, for a
+    library topology, the sizing the ranking found for it; ``settings``
+    (``--set``) override both.
+
+    Returns
+    -------
+    (RankingSummary, DesignInputs)
+    """
+    from dataclasses import replace
+
+    from ..design.candidates import spec_process
+    from ..design.rank import rank_candidates
+
+    ranking = rank_candidates(spec, library=tuple(library), samples=samples, seed=seed)
+    process = inputs.process if process_given else spec_process(spec)
+    sized = {}
+    if target.topology is not None:
+        known = {v.name for v in target.topology.variables}
+        found = next((c for c in ranking.candidates if c.id == target.topology.id), None)
+        sized = {k: v for k, v in (found.sizing if found is not None else {}).items() if k in known}
+    values = {**inputs.values, **sized, **dict(settings or {})}
+    return ranking_summary(ranking), replace(inputs, process=process, values=values)

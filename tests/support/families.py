@@ -413,7 +413,7 @@ def output_case(rng: random.Random, index: int) -> Case:
     """Where results are written: folders, names, read-only places, files that must survive, a full stdout."""
     good = text_of(rng.choice(GOOD))
     bad = _add(good, "R99 a99 0 {1/0}")
-    pick = rng.randrange(4)
+    pick = rng.randrange(5)
     old = {"old.cir": "an old deck that must survive\n", "old.png": b"\x89PNG an old plot", "sub/": b""}
     if pick == 0:
         target, why = rng.choice([("out.cir", ""), ("old.cir", ""), ("nodir/out.cir", "missing folder"),
@@ -427,6 +427,12 @@ def output_case(rng: random.Random, index: int) -> Case:
                                   ("/proc/self/p.png", "a read-only place")])
         netlist, why = (bad, "invalid netlist") if rng.random() < 0.3 else (good, why)
         argv = ("sweep", "deck.cir", "--vary", "Vout", "--from", "0", "--to", "5", "--points", "5", "--plot", target)
+        return Case(index, "outputs", argv, {"deck.cir": netlist, **old}, invalid=why, outputs=(target,))
+    if pick == 4:  # a design note: a folder of files, written whole or not at all
+        target, why = rng.choice([("notes", ""), ("sub", ""), ("nodir/notes", "missing parent folder"),
+                                  ("old.cir", "a file, not a folder"), ("/proc/self/notes", "a read-only place")])
+        netlist, why = (bad, "invalid netlist") if rng.random() < 0.3 else (good, why)
+        argv = ("note", "deck.cir", "--samples", "0", "-o", target)
         return Case(index, "outputs", argv, {"deck.cir": netlist, **old}, invalid=why, outputs=(target,))
     if pick == 2:
         argv = rng.choice([["derive", "deck.cir"], ["derive", "deck.cir", "--json"], ["bias", "deck.cir"], ["deck", "deck.cir"],

@@ -332,8 +332,12 @@ def _known_place(case: Case, where: str) -> bool:
 
 def _damage(case: Case, status: int, before: Mapping, after: Mapping) -> str:
     allowed = set(case.outputs) if status == 0 else set()
-    changed = [n for n in before if n not in allowed and after.get(n) != before[n]]
-    created = [n for n in after if n not in before and n not in allowed]
+
+    def may_write(name: str) -> bool:  # an output may be a folder (a design note's)
+        return name in allowed or any(name.startswith(folder.rstrip("/") + "/") for folder in allowed)
+
+    changed = [n for n in before if not may_write(n) and after.get(n) != before[n]]
+    created = [n for n in after if n not in before and not may_write(n)]
     if changed:
         return f"changed or removed: {', '.join(changed[:3])}"
     if created:
