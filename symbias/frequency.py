@@ -56,6 +56,8 @@ __all__ = [
     "frequency_response",
     "log_frequencies",
     "evaluate_polynomial",
+    "Root",
+    "describe_roots",
 ]
 
 #: A coefficient whose value is below this fraction of the sum of its terms' magnitudes is taken as zero.
@@ -352,6 +354,54 @@ class FrequencyResponse:
     def zero_frequencies(self) -> np.ndarray:
         """``|z|/(2 pi)`` of every zero, Hz."""
         return np.abs(self.zeros) / (2 * math.pi)
+
+
+@dataclass(frozen=True)
+class Root:
+    """A pole or zero as a designer reads it.
+
+    Parameters
+    ----------
+    hz : float
+        ``|r| / (2 pi)``.
+    where : str
+        ``real, left half-plane``, ``real, RIGHT half-plane``, ``at the origin`` or ``complex pair``.
+    q : float or None
+        The quality factor ``|r| / (2 |Re r|)`` of a complex pair.
+    """
+
+    hz: float
+    where: str
+    q: float | None = None
+
+
+def describe_roots(roots: np.ndarray) -> tuple[Root, ...]:
+    """Poles or zeros (rad/s) as :class:`Root` records, a complex pair once.
+
+    Examples
+    --------
+    >>> describe_roots(np.array([-2 * np.pi * 1.5e3 + 0j, -1 + 1j, -1 - 1j]))[0]
+    Root(hz=1500.0, where='real, left half-plane', q=None)
+    >>> round(describe_roots(np.array([-1 + 1j, -1 - 1j]))[0].q, 4)
+    0.7071
+    """
+    out = []
+    seen: set[int] = set()
+    for i, root in enumerate(roots):
+        if i in seen:
+            continue
+        frequency = float(abs(root) / (2 * math.pi))
+        if abs(root.imag) > 1e-9 * abs(root):
+            pair = next((j for j in range(i + 1, len(roots)) if abs(roots[j] - root.conjugate()) <= 1e-9 * abs(root)),
+                        None)
+            if pair is not None:
+                seen.add(pair)
+            out.append(Root(frequency, "complex pair", float(abs(root) / (2 * abs(root.real))) if root.real else math.inf))
+        elif root == 0:
+            out.append(Root(0.0, "at the origin"))
+        else:
+            out.append(Root(frequency, "real, " + ("left" if root.real < 0 else "RIGHT") + " half-plane"))
+    return tuple(out)
 
 
 def log_frequencies(start: float, stop: float, per_decade: int = 20) -> np.ndarray:

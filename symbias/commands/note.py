@@ -31,9 +31,11 @@ def register(subparsers) -> None:
         help="write the design note (Markdown, HTML, LaTeX, figures) and its sign-off deck into a folder",
         description="Write the design note of a circuit into a folder: purpose, schematic, netlist and roles, "
         "exact and leading-order output resistance and transfer, the DC ratio and its error budget (systematic "
-        "by cause, random by device with a Monte Carlo histogram), sensitivities, operating points per corner, "
-        "compliance, temperature and supply curves, cautions; as note.md, note.html (standalone, math as "
-        "MathML), note.tex (a body for \\input) and PNG/SVG figures, with signoff.cir for ngspice beside them.",
+        "by cause, random by device with a Monte Carlo histogram), sensitivities, output impedance (a "
+        "reference's supply rejection) over frequency with its poles and zeros, output noise with the devices "
+        "ranked (at the spec's noise_frequency, else 1 kHz), operating points per corner, compliance, "
+        "temperature and supply curves, cautions; as note.md, note.html (standalone, math as MathML), note.tex "
+        "(a body for \\input) and PNG/SVG figures, with signoff.cir for ngspice beside them.",
         epilog="Sign-off rests on your foundry's models in your simulator, and on measurement.",
     )
     add_target_argument(p)
@@ -85,11 +87,12 @@ def run(args: argparse.Namespace) -> int:
     check_folder(folder)  # before any work
     target = target_of(args)
     inputs = inputs_of(args, target)
-    ranking = None
+    ranking, noise_frequency = None, None
     if args.spec:
-        ranking, inputs = _ranked(args, target, inputs)
+        ranking, inputs, noise_frequency = _ranked(args, target, inputs)
     files = tuple(f for f in (args.process, args.spec) if f)
-    request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files)
+    request = NoteRequest(monte_carlo=args.samples, seed=args.seed, command=command_line(args), input_files=files,
+                          **({"noise_frequency": noise_frequency} if noise_frequency is not None else {}))
     note = build_note(target, inputs, request, ranking)
     deck = signoff_deck(target, inputs, "signoff", note.sweeps)
 
@@ -105,10 +108,13 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _ranked(args: argparse.Namespace, target, inputs):
-    """The ranking against ``--spec`` and the inputs the note then uses (:func:`symbias.note.ranking.ranked_inputs`)."""
+    """The ranking against ``--spec``, the inputs the note then uses (:func:`symbias.note.ranking.ranked_inputs`)
+    and the spec's noise frequency (None when it sets none)."""
     from ..design.spec import load_spec
     from ..note.ranking import ranked_inputs
     from .common import parse_assignments
 
-    return ranked_inputs(load_spec(args.spec), target, inputs, library=args.library, samples=args.samples,
-                         seed=args.seed, process_given=bool(args.process), settings=parse_assignments(args.set, "--set"))
+    spec = load_spec(args.spec)
+    summary, inputs = ranked_inputs(spec, target, inputs, library=args.library, samples=args.samples, seed=args.seed,
+                                    process_given=bool(args.process), settings=parse_assignments(args.set, "--set"))
+    return summary, inputs, spec.limits.noise_frequency

@@ -127,6 +127,21 @@ class NoiseSpectrum:
                 for e, v in merged.items()]
         return sorted(rows, key=lambda r: -r.density)
 
+    def element_spectra(self) -> dict[str, np.ndarray]:
+        """Each element's summed contribution over frequency (element -> density at :attr:`frequencies`).
+
+        Examples
+        --------
+        >>> from symbias.noise.output import NoiseOutput
+        >>> s = NoiseSpectrum(NoiseOutput("voltage", "a", "v(a)", ()), (), (), np.array([1.0]), np.zeros((0, 1)))
+        >>> s.element_spectra()
+        {}
+        """
+        merged: dict[str, np.ndarray] = {}
+        for source, row in zip(self.sources, self.contributions):
+            merged[source.element] = merged.get(source.element, 0.0) + row
+        return merged
+
     def integrated(self, start: float | None = None, stop: float | None = None) -> float:
         """The output noise power over a band (A^2 or V^2); the whole grid by default."""
         f = self.frequencies

@@ -7,7 +7,8 @@ Design layer, beside :mod:`symbias.design` and on :mod:`symbias.pipeline`:
 * :mod:`~symbias.note.context`: the request and the results every section
   shares (the derivation at the operating point);
 * :mod:`~symbias.note.circuit_sections`, :mod:`~symbias.note.small_signal_sections`,
-  :mod:`~symbias.note.dc_sections`, :mod:`~symbias.note.ranking`: one builder per section;
+  :mod:`~symbias.note.spectral_sections`, :mod:`~symbias.note.dc_sections`,
+  :mod:`~symbias.note.ranking`: one builder per section;
 * :mod:`~symbias.note.build`: :func:`build_note`.
 
 The renderers live in :mod:`symbias.render` (``note_markdown``, ``note_html``,
@@ -17,7 +18,10 @@ with the sign-off deck.
 Sections, in order: purpose and scenario; (with a spec) the ranking; schematic;
 netlist and element roles; output resistance and transfer (exact and leading
 order, assumptions, worst error); DC mirror ratio and its systematic error by
-cause; random error by device and Monte Carlo; sensitivities; operating point
+cause; random error by device and Monte Carlo; sensitivities; frequency
+response (output impedance, or a reference's supply rejection: -3 dB point,
+poles and zeros, magnitude and phase); output noise (density, rms over the
+band, 1/f corner, devices ranked with their shares, spectrum); operating point
 per corner; compliance; temperature; supply; cautions; how the note was made.
 """
 

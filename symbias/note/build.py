@@ -25,6 +25,7 @@ from .context import NoteRequest, note_context
 from .dc_sections import compliance_section, random_section, ratio_section, supply_section, temperature_section
 from .model import Note
 from .small_signal_sections import sensitivities_section, small_signal_section
+from .spectral_sections import frequency_section, noise_section
 
 __all__ = ["build_note"]
 
@@ -56,7 +57,8 @@ def build_note(target: Target, inputs: DesignInputs, request: NoteRequest | None
     sweeps = tuple(s for s in (output_sweep, temperature_sweep, supply_sweep) if s is not None)
     sections = [purpose_section(context), schematic_section(context), roles_section(context),
                 small_signal_section(context), ratio_section(context), random_section(context),
-                sensitivities_section(context), operating_point_section(context), compliance, temperature, supply]
+                sensitivities_section(context), frequency_section(context), noise_section(context),
+                operating_point_section(context), compliance, temperature, supply]
     if ranking is not None:
         chosen = target.topology.id if target.topology is not None else target.where
         sections.insert(1, ranking_section(ranking, chosen))

@@ -18,6 +18,7 @@ Examples
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -47,6 +48,10 @@ class NoteRequest:
         Add the leading-order forms (with their worst error).
     samples : int
         Random points of the approximation's error search.
+    spectral_per_decade : int
+        Frequencies per decade of the frequency response and the noise spectrum.
+    noise_frequency : float
+        Hz where the noise contributions are ranked (a spec's ``noise_frequency`` when one is given).
     command : str
         The command line recorded in the note.
     input_files : tuple of str
@@ -64,6 +69,8 @@ class NoteRequest:
     seed: int = 1
     approximate: bool = True
     samples: int = 2000
+    spectral_per_decade: int = 10
+    noise_frequency: float = 1e3
     command: str = ""
     input_files: tuple[str, ...] = ()
     version: str = ""
@@ -74,6 +81,10 @@ class NoteRequest:
                 raise UsageError(f"{key.replace('_', ' ')} must be at least 3, got {getattr(self, key)}")
         if self.monte_carlo < 0:
             raise UsageError(f"Monte Carlo samples must be 0 or more, got {self.monte_carlo}", path="--samples")
+        if self.spectral_per_decade < 1:
+            raise UsageError(f"frequencies per decade must be at least 1, got {self.spectral_per_decade}")
+        if not (math.isfinite(self.noise_frequency) and self.noise_frequency > 0):
+            raise UsageError(f"the noise frequency must be a positive number of Hz, got {self.noise_frequency:g}")
         if not self.temperatures[0] < self.temperatures[1]:
             raise UsageError("the temperature range must run from low to high", path="--temperatures")
 

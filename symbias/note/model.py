@@ -32,7 +32,7 @@ __all__ = ["Number", "Paragraph", "Math", "Table", "Code", "Bullets", "Curve", "
 _PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
              (1e-12, "p"), (1e-15, "f"))
 #: Units printed with an SI prefix; others print the plain number.
-_PREFIXED = ("A", "V", "ohm", "S", "F", "W", "Hz", "A/V", "V/A")
+_PREFIXED = ("A", "V", "ohm", "S", "F", "W", "Hz", "A/V", "V/A", "A/sqrt(Hz)", "V/sqrt(Hz)")
 
 
 def number_text(value: float | None, unit: str = "", digits: int = 4, percent: bool = False) -> str:
@@ -195,7 +195,7 @@ class Marker:
 
 @dataclass(frozen=True)
 class Plot:
-    """A figure's data: curves, markers, shaded spans ``(first, last, label)`` and axis labels."""
+    """A figure's data: curves, markers, shaded spans ``(first, last, label)``, axis labels and scales."""
 
     name: str
     title: str
@@ -206,6 +206,7 @@ class Plot:
     spans: tuple[tuple[float, float, str], ...] = ()
     histogram: bool = False
     log_x: bool = False
+    log_y: bool = False
 
 
 @dataclass(frozen=True)

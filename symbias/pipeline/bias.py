@@ -115,8 +115,12 @@ def states_of(target: Target, inputs: DesignInputs):
     return find_solutions(target.circuit, inputs.process, inputs.temperature, inputs.values)
 
 
-def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions | None = None) -> BiasPoint:
+def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions | None = None,
+               point=None) -> BiasPoint:
     """The operating point and the symbol values of a small-signal expansion there.
+
+    ``point``, when given, is the target's operating point for these inputs
+    (:func:`operating_point_of`'s, computed once by the caller), so it is not solved again.
 
     Matched symbols take the values of the first device of their group,
     normalised by its multiplier (see :func:`symbias.linear.network.bias_values`).
@@ -136,7 +140,7 @@ def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions
     from ..linear.network import bias_values, matched_spread
 
     options = options or SmallSignalOptions()
-    point = operating_point_of(target, inputs)
+    point = point if point is not None else operating_point_of(target, inputs)
     per_device = point.small_signal_values()
     numbers = dict(inputs.values)
     numbers.update(bias_values(target.circuit, per_device, options, inputs.values))

@@ -174,9 +174,12 @@ def _approximation(formula, values: Mapping[str, float], request: FrequencyReque
         raise err.located(path="--assume") from None
 
 
-def frequency_analysis(target: Target, inputs: DesignInputs, request: FrequencyRequest | None = None
-                       ) -> FrequencyResult:
+def frequency_analysis(target: Target, inputs: DesignInputs, request: FrequencyRequest | None = None,
+                       point=None) -> FrequencyResult:
     """The requested quantity over frequency at the bias point (see the module docstring).
+
+    ``point``: the operating point of ``target`` for ``inputs`` when the caller has it already
+    (:func:`~symbias.pipeline.bias.operating_point_of`'s), so it is not solved again.
 
     Raises
     ------
@@ -192,7 +195,7 @@ def frequency_analysis(target: Target, inputs: DesignInputs, request: FrequencyR
     options, notes = numeric_options(target, inputs, request.options)
     formula = QUANTITIES[quantity.kind][0](target.circuit, *quantity.arguments, options=options,
                                           backend=request.backend)
-    bias = with_parasitic_values(target, bias_point(target, inputs, options), options)
+    bias = with_parasitic_values(target, bias_point(target, inputs, options, point), options)
     missing = sorted(s.name for s in formula.symbols if s.name != "s" and s.name not in bias.values)
     if missing:
         raise UsageError(f"{formula.label}: no number at the bias point for {', '.join(missing)} "

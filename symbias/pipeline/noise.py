@@ -176,8 +176,12 @@ def _frequencies(request: NoiseRequest):
     return np.unique(np.append(grid, request.at))
 
 
-def noise_analysis(target: Target, inputs: DesignInputs, request: NoiseRequest | None = None) -> NoiseResult:
+def noise_analysis(target: Target, inputs: DesignInputs, request: NoiseRequest | None = None,
+                   point=None) -> NoiseResult:
     """Output noise at the bias point over a band, ranked, integrated, with closed forms on request.
+
+    ``point``: the operating point of ``target`` for ``inputs`` when the caller has it already
+    (:func:`~symbias.pipeline.bias.operating_point_of`'s), so it is not solved again.
 
     Raises
     ------
@@ -192,7 +196,7 @@ def noise_analysis(target: Target, inputs: DesignInputs, request: NoiseRequest |
     frequencies = _frequencies(request)
     options, notes = _numbers_options(target, inputs, request.options)
     where = noise_output(target.circuit, output)
-    bias = with_parasitic_values(target, bias_point(target, inputs, options), options)
+    bias = with_parasitic_values(target, bias_point(target, inputs, options, point), options)
     cards = model_cards(target, inputs)
     flicker = [name for name, card in cards.items() if card.get("KF", 0.0) > 0]
     network = expand(target.circuit, options)

@@ -72,7 +72,9 @@ def plot_figure(plot):
     ax.set_ylabel(plot.ylabel)
     if plot.log_x:
         ax.set_xscale("log")
-    ax.grid(True, alpha=0.3)
+    if plot.log_y:
+        ax.set_yscale("log")
+    ax.grid(True, which="both" if plot.log_x or plot.log_y else "major", alpha=0.3)
     if ax.get_legend_handles_labels()[0]:
         ax.legend(fontsize=8)
     ax.set_title(plot.title, fontsize=10)

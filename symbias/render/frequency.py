@@ -46,24 +46,16 @@ def root_rows(roots: np.ndarray) -> list[tuple[str, str]]:
     >>> root_rows(np.array([-2 * np.pi * 1.5e3 + 0j]))
     [('1.5kHz', 'real, left half-plane')]
     """
+    from ..frequency import describe_roots
+
     rows = []
-    seen: set[int] = set()
-    for i, root in enumerate(roots):
-        if i in seen:
-            continue
-        frequency = abs(root) / (2 * math.pi)
-        if abs(root.imag) > 1e-9 * abs(root):
-            q = abs(root) / (2 * abs(root.real)) if root.real else math.inf
-            pair = next((j for j in range(i + 1, len(roots)) if abs(roots[j] - root.conjugate()) <= 1e-9 * abs(root)),
-                        None)
-            if pair is not None:
-                seen.add(pair)
-            rows.append((engineering(frequency, "Hz"), f"complex pair, Q = {q:.3g}"))
-        elif root == 0:
-            rows.append(("0", "at the origin"))
+    for root in describe_roots(roots):
+        if root.q is not None:
+            rows.append((engineering(root.hz, "Hz"), f"complex pair, Q = {root.q:.3g}"))
+        elif root.where == "at the origin":
+            rows.append(("0", root.where))
         else:
-            rows.append((engineering(frequency, "Hz"), "real, " + ("left" if root.real < 0 else "RIGHT")
-                         + " half-plane"))
+            rows.append((engineering(root.hz, "Hz"), root.where))
     return rows
 
 

@@ -119,9 +119,7 @@ def noise_record(result) -> dict[str, Any]:
     """
     spectrum, request = result.spectrum, result.request
     at = float(spectrum.frequencies[spectrum.index(request.at)])
-    per_element: dict[str, Any] = {}
-    for source, row in zip(spectrum.sources, spectrum.contributions):
-        per_element[source.element] = per_element.get(source.element, 0.0) + row
+    per_element = spectrum.element_spectra()
     record = {
         "circuit": result.target.title, "source": result.target.where,
         "output": spectrum.output.label, "unit": spectrum.output.unit, "temperature": result.bias.temperature,
@@ -202,9 +200,7 @@ def noise_plot(result, path, kind: str | None = None) -> None:
     spectrum = result.spectrum
     fig, ax = plt.subplots(figsize=(6.4, 4.4))
     ax.loglog(spectrum.frequencies, np.sqrt(spectrum.total), lw=2, color="black", label="total")
-    per_element: dict[str, Any] = {}
-    for source, row in zip(spectrum.sources, spectrum.contributions):
-        per_element[source.element] = per_element.get(source.element, 0.0) + row
+    per_element = spectrum.element_spectra()
     ranked = [r.element for r in spectrum.by_element(result.request.at)][:6]
     for element in ranked:
         ax.loglog(spectrum.frequencies, np.sqrt(per_element[element]), lw=1, label=element)

@@ -24,7 +24,8 @@ from .note_markdown import cell_text
 __all__ = ["note_latex", "escape"]
 
 _SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_", "{": r"\{",
-            "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}", "\u201c": "``", "\u201d": "''"}
+            "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}", "|": r"\textbar{}", "\u201c": "``",
+            "\u201d": "''"}
 
 
 def escape(text: str) -> str:

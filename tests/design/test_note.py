@@ -28,7 +28,8 @@ from symbias.process import demo_process_path
 QUICK = NoteRequest(output_points=9, temperature_points=5, supply_points=5, monte_carlo=20, samples=300)
 SECTIONS = ("Purpose and scenario", "Schematic", "Netlist and element roles", "Output resistance and transfer",
             "DC mirror ratio and error budget", "Random error (device mismatch)", "Sensitivities",
-            "Operating point", "Compliance", "Temperature", "Supply", "Cautions", "How this note was made")
+            "Frequency response", "Output noise", "Operating point", "Compliance", "Temperature", "Supply", "Cautions",
+            "How this note was made")
 
 
 def _note(name: str, request: NoteRequest = QUICK):
@@ -126,7 +127,7 @@ def test_same_inputs_give_the_same_files(tmp_path):
     (tmp_path / "b").mkdir()
     written = write_note(first, tmp_path / "a")
     write_note(second, tmp_path / "b")
-    assert len(written) == 13
+    assert len(written) == 19  # 8 figures in two formats and three texts
     for path in written:
         assert path.read_bytes() == (tmp_path / "b" / path.name).read_bytes(), path.name
         assert path.stat().st_size > 0
@@ -148,7 +149,7 @@ def test_html_is_standalone(tmp_path):
     without_data = re.sub(r'src="data:image/[\w+]+;base64,[A-Za-z0-9+/=]+"', 'src=""', page)
     assert not _REMOTE.search(without_data), _REMOTE.search(without_data)
     assert "<math" in page and "$$" not in page and "\\frac" not in page
-    assert page.count('src="data:image/svg+xml;base64,') == len(re.findall("<figure>", page)) == 5
+    assert page.count('src="data:image/svg+xml;base64,') == len(re.findall("<figure>", page)) == 8
 
 
 _PROBE = """<script>
@@ -175,7 +176,7 @@ def test_html_renders_math_and_every_figure_in_chromium(tmp_path):
     probe.write_text(page.read_text().replace("</body>", _PROBE + "</body>"))
     dom = _chromium("--dump-dom", probe.as_uri()).stdout.decode()
     found = dict(re.findall(r'data-(images|loaded|maths|drawn)="(\d+)"', dom))
-    assert int(found["images"]) == 5 and found["loaded"] == found["images"], found
+    assert int(found["images"]) == 8 and found["loaded"] == found["images"], found
     assert int(found["maths"]) >= 4 and found["drawn"] == found["maths"], found
     text = re.sub(r"<[^>]+>", " ", dom)
     assert "$$" not in text and "\\frac" not in text and "\\mathrm" not in text
@@ -195,7 +196,8 @@ def test_note_command_writes_everything_and_refuses_a_file_as_folder(tmp_path, c
                  "-o", str(out)]) == 0
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted(["note.md", "note.html", "note.tex", "signoff.cir"] + [
-        f"{n}.{k}" for n in ("schematic", "monte_carlo", "compliance", "temperature", "supply")
+        f"{n}.{k}" for n in ("schematic", "monte_carlo", "frequency_magnitude", "frequency_phase", "noise",
+                             "compliance", "temperature", "supply")
         for k in ("png", "svg")])
     text = (out / "note.md").read_text()
     assert "symbias note bjt-simple-mirror --process" in text and "sha256" in text
