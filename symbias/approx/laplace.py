@@ -306,52 +306,62 @@ class _Side:
     over the points of its first 1-8 terms, then of geometrically growing
     prefixes, is computed once; :meth:`choose` bisects between the two
     candidates around a tolerance (the error falls nearly monotonically with
-    the prefix).
+    the prefix).  Arrays are terms x points, so that a group of terms, a
+    prefix and a reordering are runs of whole rows.
     """
 
     def __init__(self, columns: TermColumns, powers: np.ndarray, glog: np.ndarray, gsign: np.ndarray):
         grouped = np.argsort(powers, kind="stable")
         sorted_powers = powers[grouped]
         starts = np.flatnonzero(np.r_[True, sorted_powers[1:] != sorted_powers[:-1]])
-        exponents_t = np.ascontiguousarray(columns.exponents[grouped].T.astype(float))
+        exponents = columns.exponents[grouped].astype(float)
         coefficient = columns.numerators[grouped].astype(float) / columns.denominators[grouped].astype(float)
         self.size = len(coefficient)
         self.degree = int(powers.max(initial=0))
-        logs = dot(glog, exponents_t) + np.log(np.abs(coefficient))
-        signs = np.sign(coefficient)
+        logs = dot(exponents, np.ascontiguousarray(glog.T))
+        logs += np.log(np.abs(coefficient))[:, None]
+        signs = np.sign(coefficient)[:, None]
         if np.any(gsign < 0):  # a negative sub-expression generator flips the terms with an odd power of it
-            signs = signs * np.where(dot((gsign < 0).astype(float), exponents_t) % 2 > 0.5, -1.0, 1.0)
+            odd = dot(exponents, np.ascontiguousarray((gsign < 0).T, dtype=float)) % 2 > 0.5
+            signs = signs * np.where(odd, -1.0, 1.0)
         sizes = np.diff(np.r_[starts, self.size])
-        group_of = np.repeat(np.arange(len(starts)), sizes)
-        top = np.maximum.reduceat(logs, starts, axis=1)
+        spans = [slice(int(first), int(first + size)) for first, size in zip(starts, sizes)]
+        top = np.maximum.reduceat(logs, starts, axis=0)
         top = np.where(np.isfinite(top), top, 0.0)
-        values = np.subtract(logs, top[:, group_of], out=logs)  # in place: these arrays are points x terms
+        values = logs  # in place: these arrays are terms x points
+        for g, span in enumerate(spans):
+            values[span] -= top[g]
         np.exp(values, out=values)
         values *= signs
-        total = np.add.reduceat(values, starts, axis=1)
+        total = np.add.reduceat(values, starts, axis=0)
         scale = np.abs(total)
-        share = np.abs(values)
-        share *= (1.0 / scale)[:, group_of]
-        share = np.nan_to_num(share.max(axis=0), nan=np.inf)
-        within = np.lexsort((-share, group_of))  # groups kept together, most important first
+        share = np.empty(self.size)
+        within = np.empty(self.size, dtype=np.intp)  # groups kept together, most important first
+        with np.errstate(divide="ignore"):
+            inverse = 1.0 / scale
+        for g, span in enumerate(spans):
+            part = np.abs(values[span])
+            part *= inverse[g]
+            share[span] = part.max(axis=1) if part.shape[1] else np.nan
+            within[span] = span.start + np.argsort(-np.nan_to_num(share[span], nan=np.inf), kind="stable")
         self.rows_by_rank = grouped[within]  # original term index of each ranked position
-        ranked = values[:, within]
+        ranked = values[within]
         self.groups: dict[int, slice] = {}
         self.top, self.total, self.cumulative, self.candidates, self.worst, self.scale = {}, {}, {}, {}, {}, {}
-        for g, first in enumerate(starts):
-            k, span = int(sorted_powers[first]), slice(int(first), int(first + sizes[g]))
+        for g, span in enumerate(spans):
+            k = int(sorted_powers[span.start])
             self.groups[k] = span
-            self.top[k], self.total[k], self.scale[k] = top[:, g], total[:, g], scale[:, g]
-            self.cumulative[k] = np.cumsum(ranked[:, span], axis=1)
-            self.candidates[k] = _candidates(int(sizes[g]))
+            self.top[k], self.total[k], self.scale[k] = top[g], total[g], scale[g]
+            self.cumulative[k] = np.cumsum(ranked[span], axis=0, out=ranked[span])
+            self.candidates[k] = _candidates(span.stop - span.start)
             self.worst[k] = self._errors(k, self.candidates[k])
 
     def _errors(self, k: int, counts: np.ndarray) -> np.ndarray:
         """Worst relative error over the points of the first ``counts`` terms of coefficient ``k``."""
-        partial = self.cumulative[k][:, counts - 1]
-        errors = np.abs(partial - self.total[k][:, None]) / self.scale[k][:, None]
-        errors = np.where(np.isfinite(errors), errors, np.where(partial == self.total[k][:, None], 0.0, np.inf))
-        return errors.max(axis=0) if len(errors) else np.zeros(len(counts))
+        partial = self.cumulative[k][counts - 1]
+        errors = np.abs(partial - self.total[k]) / self.scale[k]
+        errors = np.where(np.isfinite(errors), errors, np.where(partial == self.total[k], 0.0, np.inf))
+        return errors.max(axis=1) if errors.shape[1] else np.zeros(len(counts))
 
     def all_terms(self) -> dict[int, int]:
         return {k: span.stop - span.start for k, span in self.groups.items()}
@@ -382,7 +392,7 @@ class _Side:
         top = np.zeros((points, self.degree + 1))
         for k in self.groups:
             top[:, k] = self.top[k]
-            mantissa[:, k] = self.total[k] if choice is None else self.cumulative[k][:, choice[k] - 1]
+            mantissa[:, k] = self.total[k] if choice is None else self.cumulative[k][choice[k] - 1]
         return mantissa, top
 
     def rows(self, choice, powers: Iterable[int] | None = None) -> np.ndarray:
