@@ -326,7 +326,8 @@ class _Side:
             signs = signs * np.where(odd, -1.0, 1.0)
         sizes = np.diff(np.r_[starts, self.size])
         spans = [slice(int(first), int(first + size)) for first, size in zip(starts, sizes)]
-        top = np.maximum.reduceat(logs, starts, axis=0)
+        # per group: a maximum over whole rows (numpy's reduceat along the first axis goes row by row)
+        top = np.array([logs[span].max(axis=0) for span in spans])
         top = np.where(np.isfinite(top), top, 0.0)
         values = logs  # in place: these arrays are terms x points
         for g, span in enumerate(spans):
