@@ -114,14 +114,9 @@ def _controls(bank, xe: np.ndarray) -> np.ndarray:
 
 def bank_numbers(system: DcSystem, index: np.ndarray) -> tuple:
     """The numbers of every bank for the samples at positions ``index`` of the system's batch."""
-    if system.batch == 1 or _whole_batch(index, system.batch):  # nothing to copy
+    if system.batch == 1:
         return tuple(bank.numbers for bank in system.banks)
     return tuple(take(bank.numbers, index) for bank in system.banks)
-
-
-def _whole_batch(index: np.ndarray, batch: int) -> bool:
-    """True when ``index`` is every position of the batch, in order."""
-    return len(index) == batch and np.array_equal(index, np.arange(batch))
 
 
 def initial_state(system: DcSystem, kind: str = "on", x: np.ndarray | None = None,
