@@ -54,6 +54,10 @@ _EXPORTS = {
     "run_sweep": "pipeline",
     "mirror_ratio": "pipeline",
     "SweepRequest": "pipeline",
+    # choosing the block: a spec, the library ranked against it
+    "load_spec": "design.spec",
+    "rank_candidates": "design.rank",
+    "Ranking": "design.rank",
     # large signal
     "operating_point": "dc.operating_point",
     "OperatingPoint": "dc.operating_point",
@@ -66,6 +70,7 @@ _EXPORTS = {
     "ConvergenceError": "errors",
     "ProcessError": "errors",
     "LibraryError": "errors",
+    "SpecError": "errors",
     "AssumptionError": "errors",
     "LimitError": "errors",
     "SimulatorError": "errors",

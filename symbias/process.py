@@ -21,6 +21,11 @@ cards (the card's own parameters win).  The grammar is documented once, in
     TC1 = -1e-3                # 1/K
     TC2 = 1e-6                 # 1/K^2
 
+    [layout]                   # optional: what a ranking counts as area
+    emitter_area = 10          # um^2 of a unit-area bipolar emitter
+    resistor_width = 1         # um: a resistor of n squares takes n * width^2
+    resistor_layer = "RPOLY"   # the layer of resistors that name none
+
 Examples
 --------
 >>> p = parse_process('''
@@ -60,6 +65,7 @@ __all__ = [
     "REQUIRED",
     "SIGNED",
     "TYPE_ALIASES",
+    "LAYOUT_KEYS",
 ]
 
 #: Parameters every device entry of a type must give.
@@ -147,6 +153,9 @@ class Process:
         Keyed by lower-case layer name.
     path : str or None
         File it came from.
+    layout : mapping of str to float or str
+        The optional ``[layout]`` table: ``emitter_area`` (um^2), ``resistor_width`` (um),
+        ``resistor_layer`` (a layer name).
 
     Examples
     --------
@@ -160,13 +169,16 @@ class Process:
     devices: Mapping[str, DeviceParameters] = field(default_factory=dict)
     resistors: Mapping[str, ResistorLayer] = field(default_factory=dict)
     path: str | None = None
+    layout: Mapping[str, float | str] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "devices", MappingProxyType(dict(self.devices)))
         object.__setattr__(self, "resistors", MappingProxyType(dict(self.resistors)))
+        object.__setattr__(self, "layout", MappingProxyType(dict(self.layout)))
 
     def __reduce__(self):
-        return (Process, (self.name, self.tnom, dict(self.devices), dict(self.resistors), self.path))
+        return (Process, (self.name, self.tnom, dict(self.devices), dict(self.resistors), self.path,
+                          dict(self.layout)))
 
     def device(self, name: str, type_: str | None = None) -> DeviceParameters | None:
         """The device called ``name``; failing that the only device of ``type_``; else None.
@@ -260,12 +272,40 @@ def parse_process(text: str, path: str | None = None) -> Process:
     resistors = {}
     for name, body in _table(data, "resistors", path, locate).items():
         resistors[name.lower()] = _resistor(name, body, path, locate)
-    unknown = set(data) - {"process", "devices", "resistors"}
+    unknown = set(data) - {"process", "devices", "resistors", "layout"}
     if unknown:
         section = sorted(unknown)[0]
-        raise ProcessError(f"unknown section [{section}] (expected process, devices, resistors)", path=path,
+        raise ProcessError(f"unknown section [{section}] (expected process, devices, resistors, layout)", path=path,
                            line=locate.section(section))
-    return Process(str(header.get("name", "")), tnom, devices, resistors, path)
+    layout = _layout(data.get("layout", {}), resistors, path, locate)
+    return Process(str(header.get("name", "")), tnom, devices, resistors, path, layout)
+
+
+#: Keys of the optional ``[layout]`` table: what a ranking counts as area.
+LAYOUT_KEYS = ("emitter_area", "resistor_width", "resistor_layer")
+
+
+def _layout(body, resistors: dict, path: str | None, locate: "_Locator") -> dict[str, float | str]:
+    if not isinstance(body, dict):
+        raise ProcessError("[layout] must be a table", path=path, line=locate.section("layout"))
+    out: dict[str, float | str] = {}
+    for key, value in body.items():
+        line = locate.key("layout", key) or locate.section("layout")
+        if key not in LAYOUT_KEYS:
+            raise ProcessError(f"[layout] unknown key {key!r} (expected {', '.join(LAYOUT_KEYS)})", path=path,
+                               line=line)
+        if key == "resistor_layer":
+            if not isinstance(value, str) or value.lower() not in resistors:
+                known = ", ".join(sorted(resistors)) or "none"
+                raise ProcessError(f"[layout] resistor_layer {value!r} names no resistor layer (known: {known})",
+                                   path=path, line=line)
+            out[key] = value.lower()
+            continue
+        number = _number(value, key, path, line)
+        if not (number > 0 and math.isfinite(number)):
+            raise ProcessError(f"[layout] {key} must be a positive number, got {value!r}", path=path, line=line)
+        out[key] = number
+    return out
 
 
 def _table(data: dict, key: str, path: str | None, locate: "_Locator") -> dict:

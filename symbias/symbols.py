@@ -28,11 +28,13 @@ Examples
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from typing import Iterable, Mapping
 
 __all__ = [
+    "engineering",
     "Parameter",
     "PARAMETERS",
     "BJT_PARAMETERS",
@@ -55,6 +57,7 @@ __all__ = [
     "ohm_power",
     "unit_of",
     "latex_name",
+    "QUANTITY_LATEX",
     "passive_meaning",
     "controlled_meaning",
     "device_meaning",
@@ -277,6 +280,17 @@ def _subscript(text: str) -> str:
     return text.replace("_", r"\_")
 
 
+#: LaTeX symbol of each small-signal quantity (exact results, approximations, design notes).
+QUANTITY_LATEX = {
+    "output_resistance": r"R_{\mathrm{out}}",
+    "current_gain": r"A_i",
+    "voltage_gain": r"A_v",
+    "transconductance": r"G_m",
+    "transimpedance": r"Z_t",
+    "transfer_error": r"\varepsilon",
+}
+
+
 def latex_name(name: str) -> str:
     """LaTeX of a symbol name (the one namer every renderer uses).
 
@@ -367,3 +381,27 @@ def device_meaning(parameter: str, owner: str, description: str | None = None) -
     """
     entry = PARAMETERS[parameter]
     return Meaning(f"{description or entry.description} of {owner}", entry.unit)
+
+
+_PREFIXES = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+             (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
+
+
+def engineering(value: float, unit: str = "") -> str:
+    """A number in engineering notation with an SI prefix, e.g. ``1.224M`` + unit (every renderer's form).
+
+    Examples
+    --------
+    >>> engineering(float("inf"), "ohm"), engineering(-2.5e-9, "A")
+    ('inf', '-2.5nA')
+    """
+    if value is None or value != value:  # None or nan
+        return "-"
+    if math.isinf(value):
+        return "inf" if value > 0 else "-inf"
+    if value == 0:
+        return f"0{unit}"
+    for scale, prefix in _PREFIXES:
+        if abs(value) >= scale:
+            return f"{value / scale:.4g}{prefix}{unit}"
+    return f"{value:.3g}{unit}"

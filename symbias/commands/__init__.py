@@ -8,4 +8,4 @@ parser is built, and must keep heavy imports (lcapy, matplotlib) inside
 """
 
 #: Module names under ``symbias.commands``, in the order ``--help`` lists them.
-COMMANDS: tuple[str, ...] = ("derive", "bias", "sweep", "frequency", "noise", "deck", "list", "show")
+COMMANDS: tuple[str, ...] = ("derive", "bias", "sweep", "frequency", "noise", "deck", "note", "list", "show", "rank")

@@ -93,10 +93,9 @@ def emit(args: argparse.Namespace, result: Any, renderers: dict[str, Callable[[A
     from .common import print_json, print_renderables
 
     if args.plot:
-        from ..render.files import write_atomic
+        from ..render.files import write_figure
 
-        kind = args.plot.rsplit(".", 1)[1].lower()
-        write_atomic(args.plot, lambda temporary: plot(result, temporary, kind), "--plot")
+        write_figure(args.plot, lambda temporary, kind: plot(result, temporary, kind))
     form = "json" if args.json else (args.format or "text")
     if args.json and args.format not in (None, "json"):
         raise UsageError(f"choose one output form, got json and {args.format}", path="--format")

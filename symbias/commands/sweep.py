@@ -82,11 +82,10 @@ def run(args: argparse.Namespace) -> int:
     with context:
         result = run_sweep(target, inputs, request, progress=callback)
     if args.plot:
-        from ..render.files import write_atomic
+        from ..render.files import write_figure
         from ..render.plots import sweep_plot
 
-        kind = args.plot.rsplit(".", 1)[1].lower()
-        write_atomic(args.plot, lambda temporary: sweep_plot(result, temporary, kind), "--plot")
+        write_figure(args.plot, lambda temporary, kind: sweep_plot(result, temporary, kind))
     if args.csv:
         from ..render.csv_table import sweep_csv
         from ..render.files import write_text

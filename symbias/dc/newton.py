@@ -36,6 +36,7 @@ import numpy as np
 
 from ..devices.nonlinear import take
 from ..errors import CircuitError
+from .sparse_solve import structured_solve
 from .system import DcSystem
 
 __all__ = ["DcOptions", "Attempt", "newton", "device_controls", "bank_numbers", "initial_state", "residual",
@@ -187,12 +188,10 @@ def _assemble(system: DcSystem, matrix: np.ndarray, numbers: tuple, rhs: np.ndar
     return a, b
 
 
-#: Batches at least this large are solved by elimination across the batch (one pivot order for every
-#: sample, checked sample by sample); smaller ones, and samples the shared order does not suit, by LAPACK.
+#: Batches at least this large are solved by elimination across the batch along the matrices' shared
+#: sparsity pattern (:mod:`symbias.dc.sparse_solve`, one pivot order for every sample, checked sample by
+#: sample); smaller ones, and samples the shared order does not suit, by LAPACK.
 _SHARED_MIN_BATCH = 64
-#: A shared pivot is accepted for a sample when it is at least this fraction of the largest entry below
-#: it in its column (threshold pivoting, as sparse LU codes do).
-_PIVOT_THRESHOLD = 0.1
 
 
 def _linear_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -200,7 +199,7 @@ def _linear_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     count, n = b.shape
     if count < _SHARED_MIN_BATCH or n == 0:
         return _lapack_solve(a, b)
-    x, ok = _shared_pivot_solve(a, b)
+    x, ok = structured_solve(a, b)
     if not ok.all():
         redo = np.flatnonzero(~ok)
         x[redo], ok[redo] = _lapack_solve(a[redo], b[redo])
@@ -220,52 +219,6 @@ def _lapack_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]
             except np.linalg.LinAlgError:
                 ok[i] = False  # recorded as a failed sample by the caller
         return x, ok
-
-
-def _pivot_order(m: np.ndarray) -> list[int]:
-    """Row order partial pivoting gives one matrix."""
-    m = m.copy()
-    order = list(range(m.shape[0]))
-    for k in range(m.shape[0]):
-        p = k + int(np.argmax(np.abs(m[k:, k])))
-        m[[k, p]] = m[[p, k]]
-        order[k], order[p] = order[p], order[k]
-        if m[k, k] != 0:
-            m[k + 1:, k:] -= np.outer(m[k + 1:, k] / m[k, k], m[k, k:])
-    return order
-
-
-def _shared_pivot_solve(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Gaussian elimination of every sample at once, rows in the pivot order of the first sample.
-
-    The batch is laid out sample-last, so each step is a handful of operations
-    on contiguous vectors (four to five times faster than LAPACK matrix by
-    matrix for the small systems of bias circuits); ``ok`` is false where a
-    pivot falls below :data:`_PIVOT_THRESHOLD` of its column or the result is
-    not finite.
-    """
-    count, n = b.shape
-    order = _pivot_order(a[0])
-    m = np.ascontiguousarray(a[:, order, :].transpose(1, 2, 0))  # (n, n, count)
-    y = np.ascontiguousarray(b[:, order].T)  # (n, count)
-    ok = np.ones(count, dtype=bool)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for k in range(n):
-            pivot = m[k, k]
-            ok &= np.abs(pivot) >= _PIVOT_THRESHOLD * np.max(np.abs(m[k:, k]), axis=0)
-            inverse = 1.0 / pivot
-            for i in range(k + 1, n):
-                factor = m[i, k] * inverse
-                m[i, k + 1:] -= factor * m[k, k + 1:]
-                y[i] -= factor * y[k]
-        x = np.empty_like(y)
-        for k in range(n - 1, -1, -1):
-            total = y[k].copy()
-            for j in range(k + 1, n):
-                total -= m[k, j] * x[j]
-            x[k] = total / m[k, k]
-    x = x.T.copy()
-    return x, ok & np.all(np.isfinite(x), axis=1)
 
 
 class _Record:

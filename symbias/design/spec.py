@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Mapping
@@ -40,10 +40,20 @@ from ..errors import SpecError
 from ..tomlfile import KeyLines, read_toml
 
 __all__ = ["Block", "Supply", "Limits", "Spec", "parse_spec", "load_spec", "METRICS", "FAMILIES", "TECHNOLOGIES",
-           "TEMPERATURE_RANGE"]
+           "TEMPERATURE_RANGE", "DIRECTIONS", "CHOICES", "DEMO_PROCESS"]
 
 FAMILIES = ("current-source", "current-mirror", "reference")
 TECHNOLOGIES = ("bjt", "mos", "any")
+#: Which way the output current flows: into the block (a sink), out of it (a source), or either.
+DIRECTIONS = ("sink", "source", "any")
+#: The ``process`` value that names the shipped (invented) demo process.
+DEMO_PROCESS = "demo"
+#: Design choices of the ``[sizing]`` table: name -> (default, unit).  They are the free choices the
+#: library's sizing rules name (``docs/library-format.md``); the designer may set each.
+CHOICES: dict[str, tuple[float, str]] = {
+    "VBG": (1.2, "V"), "VOV": (0.2, "V"), "VOVP": (0.2, "V"), "VRE": (0.2, "V"), "VRS": (0.2, "V"),
+    "VRC": (0.3, "V"), "k": (0.2, ""),
+}
 #: Temperatures a spec may name, degC (above absolute zero; beyond what silicon survives is refused too).
 TEMPERATURE_RANGE = (-273.15, 500.0)
 
@@ -58,7 +68,9 @@ METRICS: dict[str, tuple[str, str]] = {
     "devices": ("1", "max"),
     "area": ("um^2", "max"),
     "supply_current": ("A", "max"),
+    "voltage_error": ("1", "max"),
     "noise": ("A/sqrt(Hz)", "max"),
+    "rout_at_frequency": ("ohm", "min"),
 }
 
 _NUMBER = re.compile(r"\s*([+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)\s*(\S*)\s*", re.ASCII)
@@ -66,7 +78,12 @@ _NUMBER = re.compile(r"\s*([+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?
 
 @dataclass(frozen=True)
 class Block:
-    """What the block is: family, technology, target current or voltage, ratio, outputs, process."""
+    """What the block is: family, technology, target current or voltage, ratio, outputs, process.
+
+    ``process`` is the process file's path as resolved (relative to the spec file's folder), or
+    None for the demo process; ``output_voltage`` the voltage across the output at the operating
+    point (None: half the lowest supply); ``direction`` which way the output current flows.
+    """
 
     family: str
     technology: str = "any"
@@ -75,14 +92,22 @@ class Block:
     outputs: int = 1
     voltage: float | None = None
     process: str | None = None
+    direction: str = "any"
+    output_voltage: float | None = None
 
 
 @dataclass(frozen=True)
 class Supply:
-    """The supply range (V)."""
+    """The supply range (V), its nominal value and the least drop a current source feeding the block needs."""
 
     min: float
     max: float
+    nominal: float | None = None
+    source_drop: float = 0.2
+
+    def __post_init__(self) -> None:
+        if self.nominal is None:
+            object.__setattr__(self, "nominal", 0.5 * (self.min + self.max))
 
 
 @dataclass(frozen=True)
@@ -100,6 +125,7 @@ class Limits:
     devices_max: int | None = None
     area_max: float | None = None
     supply_current_max: float | None = None
+    voltage_error_max: float | None = None
     noise_max: float | None = None
     noise_frequency: float | None = None
     rout_min_frequency: float | None = None
@@ -115,21 +141,31 @@ class Spec:
     weights: Mapping[str, float] = field(default_factory=dict)
     path: str | None = None
     text_hash: str = ""
+    choices: Mapping[str, float] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "weights", MappingProxyType(dict(self.weights)))
+        object.__setattr__(self, "choices", MappingProxyType({**{k: v for k, (v, _) in CHOICES.items()},
+                                                              **dict(self.choices)}))
 
     def __reduce__(self):
-        return (Spec, (self.block, self.supply, self.limits, dict(self.weights), self.path, self.text_hash))
+        return (Spec, (self.block, self.supply, self.limits, dict(self.weights), self.path, self.text_hash,
+                       dict(self.choices)))
+
+    @property
+    def output_voltage(self) -> float:
+        """Voltage across the output at the operating point (V): the spec's, else half the lowest supply."""
+        return self.block.output_voltage if self.block.output_voltage is not None else 0.5 * self.supply.min
 
     def to_dict(self) -> dict[str, Any]:
         """Plain data (the ``spec`` field of a ranking's JSON)."""
         return {
             "block": {f.name: getattr(self.block, f.name) for f in fields(self.block)},
-            "supply": {"min": self.supply.min, "max": self.supply.max},
+            "supply": {f.name: getattr(self.supply, f.name) for f in fields(self.supply)},
             "limits": {f.name: (list(v) if isinstance(v := getattr(self.limits, f.name), tuple) else v)
                        for f in fields(self.limits) if getattr(self.limits, f.name) is not None},
             "weights": dict(self.weights),
+            "sizing": dict(self.choices),
             "path": self.path,
         }
 
@@ -137,15 +173,17 @@ class Spec:
 #: Key -> unit of the value ("" for plain numbers, "1" for fractions that take "%").
 _UNITS = {
     ("block", "current"): "A", ("block", "ratio"): "", ("block", "outputs"): "int", ("block", "voltage"): "V",
-    ("supply", "min"): "V", ("supply", "max"): "V",
+    ("block", "output_voltage"): "V",
+    ("supply", "min"): "V", ("supply", "max"): "V", ("supply", "nominal"): "V", ("supply", "source_drop"): "V",
     ("limits", "headroom_max"): "V", ("limits", "rout_min"): "ohm", ("limits", "ratio_error_max"): "1",
     ("limits", "random_error_max"): "1", ("limits", "sigma"): "", ("limits", "tc_max"): "ppm",
     ("limits", "line_sensitivity_max"): "%/V", ("limits", "devices_max"): "int", ("limits", "area_max"): "um^2",
-    ("limits", "supply_current_max"): "A", ("limits", "noise_max"): "/sqrt(Hz)",
-    ("limits", "noise_frequency"): "Hz", ("limits", "rout_min_frequency"): "Hz",
+    ("limits", "supply_current_max"): "A", ("limits", "voltage_error_max"): "1",
+    ("limits", "noise_max"): "/sqrt(Hz)", ("limits", "noise_frequency"): "Hz", ("limits", "rout_min_frequency"): "Hz",
+    **{("sizing", name): unit for name, (_, unit) in CHOICES.items()},
 }
-_TEXT_KEYS = {("block", "family"), ("block", "technology"), ("block", "process")}
-_TABLES = ("block", "supply", "limits", "weights")
+_TEXT_KEYS = {("block", "family"), ("block", "technology"), ("block", "process"), ("block", "direction")}
+_TABLES = ("block", "supply", "limits", "weights", "sizing")
 
 
 def load_spec(path: str | Path) -> Spec:
@@ -181,10 +219,26 @@ def parse_spec(text: str, path: str | None = None) -> Spec:
     for table in ("block", "supply"):
         if table not in data:
             raise SpecError(f"missing table [{table}]", where, 1)
-    values = {table: _read_table(table, data.get(table, {}), lines, where) for table in _TABLES[:3]}
+    values = {table: _read_table(table, data.get(table, {}), lines, where) for table in ("block", "supply", "limits")}
     weights = _read_weights(data.get("weights", {}), lines, where)
+    choices = _read_table("sizing", data.get("sizing", {}), lines, where)
     block, supply, limits = _build(values, lines, where)
-    return Spec(block, supply, limits, weights, path, hashlib.sha256(text.encode()).hexdigest())
+    if block.process is not None:
+        block = replace(block, process=_process_path(block.process, path, where, lines.of("process", "block")))
+    return Spec(block, supply, limits, weights, path, hashlib.sha256(text.encode()).hexdigest(), choices)
+
+
+def _process_path(value: str, path: str | None, where: str, line: int) -> str | None:
+    """The process file's path, relative to the spec file's folder (None: the demo process)."""
+    if value == DEMO_PROCESS:
+        return None
+    found = Path(value).expanduser()
+    if not found.is_absolute() and path is not None:
+        found = Path(path).parent / found
+    if not found.is_file():
+        raise SpecError(f"[block] process: no process file {str(found)!r} (give a path relative to the spec "
+                        f"file, or \"{DEMO_PROCESS}\")", where, line)
+    return str(found)
 
 
 def _read_table(table: str, body: dict, lines: KeyLines, where: str) -> dict[str, Any]:
@@ -236,11 +290,12 @@ def _from_text(text: str, unit: str, what: str, where: str, line: int) -> float:
     number, tail = Fraction(match.group(1)), match.group(2).lower()
     if unit == "1" and tail == "%":
         return float(number / 100)
-    expected = {"1": "", "int": "", "ppm": "ppm", "%/V": "%/v"}.get(unit, unit.lower())
-    if tail in (expected, ""):
+    expected = {"1": ("",), "int": ("",), "ppm": ("ppm",), "%/V": ("%/v",),
+                "/sqrt(Hz)": ("a/sqrt(hz)", "v/sqrt(hz)")}.get(unit, (unit.lower(),))
+    if tail in (*expected, ""):
         return float(number)
     for prefix, scale in sorted(SUFFIXES.items(), key=lambda kv: -len(kv[0])):
-        if prefix != "mil" and tail.startswith(prefix) and tail[len(prefix):] in (expected, ""):
+        if prefix != "mil" and tail.startswith(prefix) and tail[len(prefix):] in (*expected, ""):
             return float(number * scale)
     shown = {"1": "a plain number or %", "int": "a whole number", "": "a plain number"}.get(unit, unit)
     raise SpecError(f"{what}: wrong unit in {text!r} (expected {shown})", where, line)
@@ -278,6 +333,9 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     if block["family"] not in FAMILIES:
         raise SpecError(f"[block] family: {block['family']!r} is not one of {', '.join(FAMILIES)}", where,
                         lines.of("family", "block"))
+    if block.get("direction", "any") not in DIRECTIONS:
+        raise SpecError(f"[block] direction: {block['direction']!r} is not one of {', '.join(DIRECTIONS)}",
+                        where, lines.of("direction", "block"))
     if block.get("technology", "any") not in TECHNOLOGIES:
         raise SpecError(f"[block] technology: {block['technology']!r} is not one of {', '.join(TECHNOLOGIES)}",
                         where, lines.of("technology", "block"))
@@ -291,10 +349,18 @@ def _build(values: dict[str, dict], lines: KeyLines, where: str) -> tuple[Block,
     if supply["min"] > supply["max"]:
         raise SpecError(f"[supply] min {supply['min']:g} V is above max {supply['max']:g} V", where,
                         lines.of("min", "supply"))
+    if not supply["min"] <= supply.get("nominal", supply["min"]) <= supply["max"]:
+        raise SpecError(f"[supply] nominal {supply['nominal']:g} V is outside min..max", where,
+                        lines.of("nominal", "supply"))
+    for key in ("output_voltage", "voltage"):
+        if key in block and block[key] > supply["max"]:
+            raise SpecError(f"[block] {key} {block[key]:g} V is above the highest supply {supply['max']:g} V",
+                            where, lines.of(key, "block"))
     headroom = limits.get("headroom_max")
     if headroom is not None and headroom >= supply["min"] and block["family"] != "reference":
         raise SpecError(f"[limits] headroom_max {headroom:g} V leaves no room below the lowest supply "
                         f"{supply['min']:g} V", where, lines.of("headroom_max", "limits"))
     if ("noise_max" in limits) != ("noise_frequency" in limits):
-        raise SpecError("[limits] noise_max and noise_frequency go together", where, lines.of("", "limits"))
-    return Block(**block), Supply(supply["min"], supply["max"]), Limits(**limits)
+        raise SpecError("[limits] noise_max and noise_frequency go together (a density at a frequency)", where,
+                        lines.of("noise_max" if "noise_max" in limits else "noise_frequency", "limits"))
+    return Block(**block), Supply(**supply), Limits(**limits)

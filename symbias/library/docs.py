@@ -58,6 +58,11 @@ def _devices(topology) -> str:
     return ", ".join(f"{n} {kind}" for kind, n in sorted(counts.items()))
 
 
+#: How the generated page names each ``sizes`` value.
+_SIZED = {"output-current": "the target output current", "zero-tc": "zero temperature slope of the output",
+          "matching": "the random-error limit (Pelgrom)"}
+
+
 def _cell(text: str) -> str:
     return text.replace("|", r"\|")
 
@@ -74,6 +79,8 @@ def _section(topology) -> list[str]:
         out += ["| variable | default | unit | sizing rule |", "|---|---|---|---|"]
         for v in topology.variables:
             rule = v.rule + (f" (`{v.expr}`)" if v.expr else "")
+            if v.sizes:
+                rule += f"; a ranking solves it for {_SIZED[v.sizes]}"
             out.append(f"| `{v.name}` | {v.default} | {v.unit} | {_cell(rule)} |")
         out.append("")
     if topology.formulas:

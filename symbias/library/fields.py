@@ -37,6 +37,7 @@ __all__ = [
     "check_expression",
     "check_options",
     "check_strings",
+    "check_rule_names",
     "FAMILIES",
     "TECHNOLOGIES",
     "FORMS",
@@ -46,6 +47,8 @@ __all__ = [
     "LIST_ROLES",
     "HEADROOM_KEYS",
     "YEARS",
+    "SIZES",
+    "RULE_QUANTITIES",
 ]
 
 FAMILIES = ("current-source", "current-mirror", "reference")
@@ -69,6 +72,42 @@ ROLE_KEYS = ("input", "output", "outputs", "supply", "bias", "transfer")
 HEADROOM_KEYS = ("output", "input", "supply")
 #: Publication years accepted in a reference (inclusive).
 YEARS = (1800, 2100)
+
+#: What a design variable marked ``sizes`` is solved for by a ranking run (``symbias.design.sizing``):
+#: the target output current, a zero temperature slope of the output (bandgaps), or the gate
+#: length that meets a random-error limit (Pelgrom's area law).
+SIZES = ("output-current", "zero-tc", "matching")
+
+#: Quantities a sizing rule (``expr``) may name besides the topology's own variables, with their
+#: meaning; :mod:`symbias.design.sizing` gives each a number for a spec and a process.
+RULE_QUANTITIES: dict[str, str] = {
+    "IOUT": "target current of one output (A): the spec's current",
+    "IIN": "input current of a mirror (A): IOUT/RATIO",
+    "RATIO": "output/input current ratio of a mirror: the spec's ratio",
+    "I": "branch current of a reference (A): the spec's current, else 10 uA",
+    "IC": "collector current per side of a bandgap cell (A): I",
+    "I1": "current of the first branch of a Widlar bandgap (A): I",
+    "I2": "current of the second branch of a Widlar bandgap (A): I/10",
+    "I3": "current of the output transistor of a Widlar bandgap (A): I",
+    "VT": "thermal voltage kT/q at the process's nominal temperature (V)",
+    "beta": "forward current gain BF of the output device's bipolar model (else the first bipolar model)",
+    "IS": "saturation current of that model (A)",
+    "VBE": "VT*log(IOUT/IS), at I for a reference (V)",
+    "VEB": "VT*log(I/IS) of the first pnp model (V)",
+    "VCEsat": "VT*log(100*(1 + 1/BR)): where the bipolar model leaves the active region by 1 % (V)",
+    "KP": "KP of the first nmos model (A/V^2)",
+    "KPP": "KP of the first pmos model (A/V^2)",
+    "VTH": "VTO of the first nmos model (V)",
+    "VCC": "the nominal supply (V)",
+    "VREF": "the spec's reference voltage, else VBG (V)",
+    "VBG": "design choice: bandgap voltage to start a zero-TC sizing from (V, default 1.2)",
+    "VOV": "design choice: nmos overdrive (V, default 0.2)",
+    "VOVP": "design choice: pmos overdrive (V, default 0.2)",
+    "VRE": "design choice: emitter-degeneration drop (V, default 0.2)",
+    "VRS": "design choice: source-degeneration drop (V, default 0.2)",
+    "VRC": "design choice: collector-resistor drop (V, default 0.3)",
+    "k": "design choice: helper current as a fraction of IOUT (default 0.2)",
+}
 
 _ID = re.compile(r"[a-z0-9][a-z0-9-]*", re.ASCII)
 #: Roles that hold a list of element names.
@@ -191,6 +230,26 @@ def check_options(data: Mapping[str, Any]) -> dict[str, Any]:
             wanted = "true, false or a list of model names" if key == "match" else "true or false"
             raise LibraryError(f"option {key!r} must be {wanted}")
     return options
+
+
+def check_rule_names(text: str, variables: Any, what: str) -> frozenset[str]:
+    """The names a sizing rule uses; each must be a variable of the topology or one of :data:`RULE_QUANTITIES`.
+
+    Examples
+    --------
+    >>> sorted(check_rule_names("VT*log(IREF/IOUT)/IOUT", {"IREF", "RE"}, "variable RE expr"))
+    ['IOUT', 'IREF', 'VT']
+    >>> check_rule_names("VRE/IE", {"RE"}, "variable RE expr")
+    Traceback (most recent call last):
+    ...
+    symbias.errors.LibraryError: <input>: variable RE expr: IE is neither a variable of the topology nor a known quantity (IOUT, IIN, RATIO, I, IC, I1, I2, I3, VT, beta, IS, VBE, VEB, VCEsat, KP, KPP, VTH, VCC, VREF, VBG, VOV, VOVP, VRE, VRS, VRC, k)
+    """
+    names = parse_expression(text).names
+    for name in sorted(names):
+        if name not in variables and name not in RULE_QUANTITIES:
+            raise LibraryError(f"{what}: {name} is neither a variable of the topology nor a known quantity "
+                               f"({', '.join(RULE_QUANTITIES)})")
+    return names
 
 
 def check_strings(values: Any, key: str) -> tuple[str, ...]:

@@ -20,7 +20,7 @@ Examples
 >>> parse_topology(text.replace('default = "100u"', 'default = "1e400"'), "mine.toml")
 Traceback (most recent call last):
 ...
-symbias.errors.LibraryError: mine.toml:37: variable IREF: default: number '1e400' is out of range (exponent beyond +-308)
+symbias.errors.LibraryError: mine.toml:38: variable IREF: default: number '1e400' is out of range (exponent beyond +-308)
 """
 
 from __future__ import annotations
@@ -36,6 +36,7 @@ from .fields import (
     FAMILIES,
     FORMS,
     FORMULA_QUANTITIES,
+    SIZES,
     TECHNOLOGIES,
     check_choice,
     check_default,
@@ -47,7 +48,8 @@ from .fields import (
     check_year,
 )
 from ..tomlfile import KeyLines, read_toml
-from .topology import ExpectedFormula, Reference, Topology, Variable, netlist_circuit, remember_circuit
+from .schematic import read_schematic
+from .topology import ExpectedFormula, Reference, Topology, Variable, netlist_circuit, remember_circuit, sizing_problem
 
 __all__ = ["parse_topology", "load_topology", "identifier_line", "CACHE_SIZE"]
 
@@ -68,6 +70,7 @@ _ROOT_KEYS = {
     "variables": (False, list, "an array of tables [[variables]]"),
     "references": (True, list, "an array of tables [[references]]"),
     "formulas": (False, list, "an array of tables [[formulas]]"),
+    "schematic": (False, dict, "a table [schematic]"),
 }
 _ROLE_KEYS = {
     "input": (False, str, "an element name"),
@@ -89,6 +92,7 @@ _VARIABLE_KEYS = {
     "description": (True, str, "a string"),
     "rule": (True, str, "a string"),
     "expr": (False, str, "an expression string"),
+    "sizes": (False, str, "a string"),
 }
 _REFERENCE_KEYS = {
     "author": (True, str, "a string"),
@@ -187,8 +191,13 @@ def _parse_kept(text: str, path: str | None) -> Topology:
     headroom = _read_headroom(data.get("headroom", {}), lines, where)
     variables = _read_variables(data.get("variables", []), lines, where)
     _check_variables_cover_netlist(circuit, variables, lines, where)
+    _check_sizing(variables, family, lines, where)
     with _at(where, lines.of("options")):
         options = check_options(data.get("options", {}))
+    schematic = None
+    if "schematic" in data:
+        with _at(where, lines.headers.get(("schematic", None)) or lines.of("schematic")):
+            schematic = read_schematic(data["schematic"], circuit, lines)
     with _at(where, 1):
         topology = Topology(
             id=data["id"],
@@ -205,6 +214,7 @@ def _parse_kept(text: str, path: str | None) -> Topology:
             options=options,
             path=path,
             netlist_line=netlist_line,
+            schematic=schematic,
         )
     return remember_circuit(topology, circuit)
 
@@ -313,10 +323,21 @@ def _read_variables(items: list, lines: KeyLines, path: str) -> tuple[Variable, 
         if "expr" in item:
             with _at(path, lines.of("expr", "variables", index)):
                 check_expression(item["expr"], f"variable {name} expr")
+        if "sizes" in item:
+            _choice(item["sizes"], SIZES, f"variable {name}: sizes", path, lines.of("sizes", "variables", index))
         with _at(path, lines.headers.get(("variables", index), 1)):
             out.append(Variable(name, default, value, item.get("unit", ""), item["description"], item["rule"],
-                                item.get("expr")))
+                                item.get("expr"), item.get("sizes")))
     return tuple(out)
+
+
+def _check_sizing(variables: tuple[Variable, ...], family: str, lines: KeyLines, path: str) -> None:
+    """The sizing keys of the variables, reported at the line of the key at fault."""
+    problem = sizing_problem(variables, family)
+    if problem is not None:
+        index, key, message = problem
+        line = lines.of(key, "variables", index) if variables else lines.of("family")
+        raise LibraryError(message, path, line)
 
 
 def _check_variables_cover_netlist(circuit, variables: tuple[Variable, ...], lines: KeyLines, path: str) -> None:

@@ -16,7 +16,7 @@ Examples
 >>> top = Topology(id="tiny-sink", title="Resistor sink", family="current-source", technology="bjt",
 ...                description="A resistor.", netlist="tiny\\nV1 a 0 1\\nR1 a 0 {RL}\\n",
 ...                roles={"output": "V1"}, references=(ref,),
-...                variables=(Variable("RL", "1k", 1000.0, "ohm", "load", "any"),))
+...                variables=(Variable("RL", "1k", 1000.0, "ohm", "load", "any", sizes="output-current"),))
 >>> top.default_quantities()
 (('output_resistance', ('V1',)),)
 >>> replace(top, id="Tiny sink")
@@ -42,10 +42,12 @@ from .fields import (
     HEADROOM_KEYS,
     LIST_ROLES,
     ROLE_KEYS,
+    SIZES,
     TECHNOLOGIES,
     check_choice,
     check_identifier,
     check_options,
+    check_rule_names,
     check_strings,
     check_symbol_name,
     check_text,
@@ -59,6 +61,7 @@ __all__ = [
     "Topology",
     "netlist_circuit",
     "remember_circuit",
+    "sizing_problem",
 ]
 
 # (current out of a V element, driven by an I source) -> quantity of the main transfer
@@ -144,6 +147,9 @@ class Variable:
         Unit, meaning, and the rule that sizes it for a target.
     expr : str, optional
         The sizing rule as an expression over target quantities.
+    sizes : str, optional
+        What a ranking run solves this variable for on the DC model (one of
+        :data:`~symbias.library.fields.SIZES`); its rule gives the start.
     """
 
     name: str
@@ -153,6 +159,7 @@ class Variable:
     description: str = ""
     rule: str = ""
     expr: str | None = None
+    sizes: str | None = None
 
     def __post_init__(self) -> None:
         check_symbol_name(self.name, "variable name")
@@ -164,6 +171,78 @@ class Variable:
                 raise LibraryError(f"variable {self.name}: {key!r} must be a string")
         if self.expr is not None:
             check_text(self.expr, "expr")
+        if self.sizes is not None:
+            check_choice(self.sizes, SIZES, f"variable {self.name}: sizes")
+
+
+#: The variable each family must mark with ``sizes`` (references: a zero-TC bandgap variable).
+_SIZED_BY_FAMILY = {"current-source": "output-current", "current-mirror": "output-current", "reference": "zero-tc"}
+
+
+def sizing_problem(variables: tuple[Variable, ...], family: str) -> tuple[int, str, str] | None:
+    """The first problem with the sizing keys of a topology's variables, or None.
+
+    Returns ``(index of the variable, key at fault, message)``.  The family's
+    variable must be marked once (sources and mirrors ``output-current``,
+    references ``zero-tc``) and be positive; each other ``sizes`` value at most
+    once; every ``expr`` names only variables and known quantities
+    (:data:`~symbias.library.fields.RULE_QUANTITIES`), without a cycle among
+    the rules.
+
+    Examples
+    --------
+    >>> v = Variable("IREF", "100u", 1e-4, "A", "reference", "IREF = IOUT", "IOUT", "output-current")
+    >>> sizing_problem((v,), "current-mirror") is None, sizing_problem((v,), "reference")[2]
+    (True, "variable IREF: sizes = 'output-current' does not apply to a reference")
+    """
+    names = {v.name for v in variables}
+    depends: dict[str, frozenset[str]] = {}
+    for index, variable in enumerate(variables):
+        if variable.expr is not None:
+            try:
+                depends[variable.name] = check_rule_names(variable.expr, names, f"variable {variable.name} expr")
+            except LibraryError as err:
+                return index, "expr", err.reason
+    wanted = _SIZED_BY_FAMILY[family]
+    for kind in SIZES:
+        marked = [i for i, v in enumerate(variables) if v.sizes == kind]
+        if len(marked) > 1:
+            return marked[1], "sizes", f"variable {variables[marked[1]].name}: sizes = {kind!r} is already on " \
+                                       f"{variables[marked[0]].name}"
+        if marked and kind in _SIZED_BY_FAMILY.values() and kind != wanted:
+            return marked[0], "sizes", f"variable {variables[marked[0]].name}: sizes = {kind!r} does not apply " \
+                                       f"to a {family}"
+        if marked and variables[marked[0]].value <= 0:
+            return marked[0], "default", f"variable {variables[marked[0]].name}: a sized variable needs a " \
+                                         f"positive default"
+    if not any(v.sizes == wanted for v in variables):
+        what = "source or mirror" if family != "reference" else "reference"
+        return max(len(variables) - 1, 0), "sizes", f"a {what} marks one variable sizes = {wanted!r} (it has none)"
+    cycle = _rule_cycle(depends)
+    if cycle:
+        index = next(i for i, v in enumerate(variables) if v.name == cycle[0])
+        return index, "expr", f"sizing rules depend on each other: {' -> '.join(cycle)}"
+    return None
+
+
+def _rule_cycle(depends: Mapping[str, frozenset[str]]) -> list[str]:
+    """A cycle among the rules (names, the first repeated at the end), or an empty list."""
+    state: dict[str, int] = {}
+
+    def visit(name: str, trail: list[str]) -> list[str]:
+        state[name] = 1  # on the current trail
+        for other in sorted(depends.get(name, ())):
+            if other in depends and state.get(other) == 1:
+                return trail[trail.index(other):] + [other]
+            if other in depends and state.get(other) is None and (found := visit(other, trail + [other])):
+                return found
+        state[name] = 2
+        return []
+
+    for start in sorted(depends):
+        if state.get(start) is None and (found := visit(start, [start])):
+            return found
+    return []
 
 
 @dataclass(frozen=True)
@@ -267,7 +346,8 @@ class Topology:
     maps ``output`` (compliance), ``input`` and ``supply`` to expression
     strings.  ``netlist_line`` is the file line of the netlist's title; its
     other lines follow on consecutive lines, so the circuit's element lines are
-    file lines.
+    file lines.  ``schematic`` is the placement of its elements for a drawing
+    (:class:`~symbias.library.schematic.Schematic`), or None.
 
     The circuit is parsed once, on first use (a pure function of the frozen
     fields, so the kept result never goes stale).
@@ -287,6 +367,7 @@ class Topology:
     options: Mapping[str, Any] = field(default_factory=dict)
     path: str | None = None
     netlist_line: int = 1
+    schematic: Any = None
 
     def __post_init__(self) -> None:
         try:
@@ -317,6 +398,9 @@ class Topology:
         twice = sorted({n for n in names if names.count(n) > 1})
         if twice:
             raise LibraryError(f"variable {twice[0]!r} is defined twice")
+        problem = sizing_problem(self.variables, self.family)
+        if problem is not None:
+            raise LibraryError(problem[2])
         if not isinstance(self.netlist_line, int) or self.netlist_line < 1:
             raise LibraryError(f"netlist_line must be a positive integer, got {self.netlist_line!r}")
 
@@ -419,7 +503,7 @@ class Topology:
             "headroom": dict(self.headroom),
             "variables": [
                 {"name": v.name, "default": v.default, "unit": v.unit, "description": v.description,
-                 "rule": v.rule, "expr": v.expr}
+                 "rule": v.rule, "expr": v.expr, "sizes": v.sizes}
                 for v in self.variables
             ],
             "formulas": [

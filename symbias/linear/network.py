@@ -161,6 +161,7 @@ def bias_values(
     circuit: Circuit,
     per_device: Mapping[str, Mapping[str, float]],
     options: SmallSignalOptions | None = None,
+    numbers: Mapping[str, float] | None = None,
 ) -> dict[str, float]:
     """Map per-device small-signal values to the symbol names of an expansion.
 
@@ -175,6 +176,8 @@ def bias_values(
         shared symbol takes the value of the group's first device normalised by
         its multiplier (``gm/m``, ``ro*m``), which is what the shared symbol
         means; with ``beta`` the value of ``beta`` is ``gm*rpi``.
+    numbers : mapping, optional
+        Values of free symbols in the multipliers (``Q2 out in 0 QN {N}``).
 
     Examples
     --------
@@ -194,7 +197,7 @@ def bias_values(
         if data is None:
             continue
         info = symbols[device.key]
-        m = float(info.multiplier)
+        m = _multiplier(info, numbers)
         for parameter, number in data.items():
             scaling = PARAMETERS[parameter].scaling if parameter in PARAMETERS else "none"
             scaled = number * m if scaling == "down" else number / m if scaling == "up" else number
@@ -204,11 +207,20 @@ def bias_values(
     return values
 
 
+def _multiplier(info, numbers: Mapping[str, float] | None) -> float:
+    """A device's multiplier as a number, its free symbols (a symbolic area or ``m``) taken from ``numbers``."""
+    multiplier = info.multiplier
+    if numbers and getattr(multiplier, "names", None):
+        return float(multiplier.evaluate(dict(numbers)))
+    return float(multiplier)
+
+
 def matched_spread(
     circuit: Circuit,
     per_device: Mapping[str, Mapping[str, float]],
     options: SmallSignalOptions | None = None,
     tolerance: float = MATCH_TOLERANCE,
+    numbers: Mapping[str, float] | None = None,
 ) -> list[str]:
     """Where devices that share symbols differ at the operating point by more than ``tolerance``.
 
@@ -235,7 +247,7 @@ def matched_spread(
         info, data = symbols[device.key], lookup.get(device.key)
         if info.group is None or data is None:
             continue
-        m = float(info.multiplier)
+        m = _multiplier(info, numbers)
         scaled = {}
         for parameter, number in data.items():
             scaling = PARAMETERS[parameter].scaling if parameter in PARAMETERS else "none"

@@ -139,8 +139,8 @@ def bias_point(target: Target, inputs: DesignInputs, options: SmallSignalOptions
     point = operating_point_of(target, inputs)
     per_device = point.small_signal_values()
     numbers = dict(inputs.values)
-    numbers.update(bias_values(target.circuit, per_device, options))
-    notes = tuple(matched_spread(target.circuit, per_device, options))
+    numbers.update(bias_values(target.circuit, per_device, options, inputs.values))
+    notes = tuple(matched_spread(target.circuit, per_device, options, numbers=inputs.values))
     for note in notes:
         warnings.warn(f"{target.where}: {note}", BiasWarning, stacklevel=2)
     return BiasPoint(point, numbers, inputs, notes)

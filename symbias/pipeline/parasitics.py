@@ -126,7 +126,7 @@ def with_parasitic_values(target: Target, bias: BiasPoint, options: SmallSignalO
 
     extras = parasitic_values(target, bias.inputs, bias.point)
     values = dict(bias.values)
-    for name, value in bias_values(target.circuit, extras, options).items():
+    for name, value in bias_values(target.circuit, extras, options, bias.inputs.values).items():
         values.setdefault(name, value)
     return replace(bias, values=values)
 

@@ -17,6 +17,8 @@ import math
 import sys
 from typing import Any
 
+from ..symbols import engineering  # written once, beside the units; shown from here
+
 __all__ = ["CAUTION", "terminal_console", "render_to_string", "engineering", "ratio_text", "escaped", "SHOWN"]
 
 #: Longest name or title shown in a table or header (the JSON output keeps every character).
@@ -25,30 +27,6 @@ SHOWN = 200
 #: The caution every output carries: results are design aids.
 CAUTION = ("Design aid: sign-off needs full simulation and measurement; high-voltage or safety-relevant "
            "circuits follow local codes and licensed practice.")
-
-_PREFIXES = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
-             (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
-
-
-def engineering(value: float, unit: str = "") -> str:
-    """A number in engineering notation with an SI prefix, e.g. ``1.224M`` + unit.
-
-    Examples
-    --------
-    >>> engineering(float("inf"), "ohm"), engineering(-2.5e-9, "A")
-    ('inf', '-2.5nA')
-    """
-    if value is None or value != value:  # None or nan
-        return "-"
-    if math.isinf(value):
-        return "inf" if value > 0 else "-inf"
-    if value == 0:
-        return f"0{unit}"
-    for scale, prefix in _PREFIXES:
-        if abs(value) >= scale:
-            return f"{value / scale:.4g}{prefix}{unit}"
-    return f"{value:.3g}{unit}"
-
 
 def escaped(text: object, limit: int | None = SHOWN) -> str:
     """Text from a netlist or a file, made safe inside rich markup and shortened to ``limit`` characters.

@@ -6,7 +6,9 @@ the destination folder and renamed into place, so a failure (a full disk, a
 killed process, an error while rendering) leaves the old file intact and no
 temporary file behind.  :func:`check_destination` refuses a missing folder, a
 folder given as the file, or a name whose suffix does not say the format,
-before any work is done.
+before any work is done.  :func:`write_folder` does the same for a folder of
+files (a design note): they are written in a staging folder beside it and moved
+in only when all of them exist.
 
 Examples
 --------
@@ -21,13 +23,14 @@ Examples
 from __future__ import annotations
 
 import os
+import shutil
 import tempfile
 from pathlib import Path
 from typing import Callable, Iterable
 
 from ..errors import OutputError
 
-__all__ = ["check_destination", "write_atomic", "write_text"]
+__all__ = ["check_destination", "check_folder", "write_atomic", "write_text", "write_figure", "write_folder"]
 
 
 def check_destination(path: str | Path, suffixes: Iterable[str] | None = None, option: str = "--output") -> Path:
@@ -117,3 +120,84 @@ def write_text(path: str | Path, text: str, option: str = "--output") -> None:
             os.fsync(stream.fileno())
 
     write_atomic(path, write, option)
+
+
+def write_figure(path: str | Path, draw: Callable[[Path, str], None], option: str = "--plot") -> None:
+    """Write a figure atomically in the format its suffix names: ``draw(temporary_path, kind)``.
+
+    ``kind`` is the suffix in lower case (``png``, ``svg``, ``pdf``); the
+    caller has checked it with :func:`check_destination` before any work.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> write_figure(folder / "f.SVG", lambda temporary, kind: temporary.write_text(kind))
+    >>> (folder / "f.SVG").read_text()
+    'svg'
+    """
+    kind = str(path).rsplit(".", 1)[1].lower()
+    write_atomic(path, lambda temporary: draw(temporary, kind), option)
+
+
+def check_folder(folder: str | Path, option: str = "--output") -> Path:
+    """``folder`` as a Path when a folder of results may be written there (before any work), else an error.
+
+    Raises
+    ------
+    OutputError
+        For a file given as the folder or a missing parent folder.
+    """
+    target = Path(folder)
+    if target.exists() and not target.is_dir():
+        raise OutputError(f"{target} is a file; give a folder", path=option)
+    parent = target.parent if str(target.parent) else Path(".")
+    if not parent.is_dir():
+        raise OutputError(f"cannot write {target}: the folder {parent} does not exist", path=option)
+    return target
+
+
+def write_folder(folder: str | Path, fill: Callable[[Path], object], option: str = "--output") -> object:
+    """Call ``fill(staging_folder)`` and move what it wrote into ``folder``, all or nothing; return its result.
+
+    The staging folder lives beside ``folder`` (same file system).  A new
+    ``folder`` is the staging folder renamed; into an existing one the files
+    are moved one by one (each rename atomic).  Whatever fails, the staging
+    folder is removed and ``folder`` holds what it held before.
+
+    Raises
+    ------
+    OutputError
+        For a missing parent folder, a file given as the folder, or a file that cannot be written.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> parent = pathlib.Path(tempfile.mkdtemp())
+    >>> write_folder(parent / "note", lambda staging: (staging / "a.md").write_text("x"))
+    1
+    >>> sorted(p.name for p in parent.iterdir()), (parent / "note" / "a.md").read_text()
+    (['note'], 'x')
+    """
+    target = check_folder(folder, option)
+    parent = target.parent if str(target.parent) else Path(".")
+    try:
+        staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".part", dir=parent))
+    except OSError as err:
+        raise OutputError(f"cannot write {target}: {err.strerror or err}", path=option) from None
+    try:
+        result = fill(staging)
+        if not target.exists():
+            os.rename(staging, target)
+            return result
+        for path in sorted(staging.rglob("*")):
+            if path.is_file():
+                destination = target / path.relative_to(staging)
+                destination.parent.mkdir(parents=True, exist_ok=True)
+                os.replace(path, destination)
+        return result
+    except OSError as err:
+        raise OutputError(f"cannot write {target}: {err.strerror or err}", path=option) from None
+    finally:
+        if staging.exists():
+            shutil.rmtree(staging, ignore_errors=True)

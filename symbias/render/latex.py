@@ -17,18 +17,11 @@ from __future__ import annotations
 import sympy
 
 from ..formula import Formula
-from ..symbols import latex_name
+from ..symbols import QUANTITY_LATEX, latex_name
 
 __all__ = ["formula_latex", "quantity_symbol", "approximation_latex", "assumption_latex", "derivation_latex"]
 
-_QUANTITY_SYMBOLS = {
-    "output_resistance": r"R_{\mathrm{out}}",
-    "current_gain": r"A_i",
-    "voltage_gain": r"A_v",
-    "transconductance": r"G_m",
-    "transimpedance": r"Z_t",
-    "transfer_error": r"\varepsilon",
-}
+_QUANTITY_SYMBOLS = QUANTITY_LATEX
 
 
 def quantity_symbol(formula: Formula) -> str:

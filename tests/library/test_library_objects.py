@@ -134,6 +134,8 @@ def _good() -> Topology:
     (dict(headroom={"body": "VBE"}), "headroom 'body'"),
     (dict(options={"parasitics": ["rx"]}), "unknown parasitic 'rx'"),
     (dict(netlist_line=0), "netlist_line"),
+    (dict(family="reference"), "sizes = 'output-current' does not apply to a reference"),
+    (dict(variables=()), "marks one variable sizes = 'output-current'"),
 ])
 def test_topology_checks_itself(change, fragment):
     with pytest.raises(LibraryError) as info:
@@ -151,6 +153,8 @@ def test_parts_check_themselves():
         Variable("RE", "1k", float("inf"))
     with pytest.raises(LibraryError, match="not a valid symbol name"):
         Variable("R E", "1k", 1e3)
+    with pytest.raises(LibraryError, match="sizes 'output'"):
+        Variable("RE", "1k", 1e3, sizes="output")
     with pytest.raises(LibraryError, match="leading-order formulas only"):
         ExpectedFormula("output_resistance", "exact", "ro", large=("ro",))
     with pytest.raises(LibraryError, match="quantity 'rout'"):

@@ -39,7 +39,7 @@ def _tour() -> list[str]:
 def test_tour_command_runs(tmp_path, line):
     symbias = [sys.executable, "-m", "symbias"]
     for part in line.split("&&"):
-        for written in ("wilson_signoff.cir", "wilson_iout.csv"):  # files the tour writes go to a scratch folder
+        for written in ("wilson_signoff.cir", "wilson_iout.csv", "ranking.md", "tradeoff.png", "sink-note"):  # the tour writes to a scratch folder
             part = part.replace(written, str(tmp_path / written))
         words = shlex.split(part)
         if words[0] == "ngspice":

@@ -22,7 +22,7 @@ import pytest
 
 from symbias.errors import OutputError
 from symbias.render import files
-from symbias.render.files import write_atomic, write_text
+from symbias.render.files import write_atomic, write_folder, write_text
 from support.cli_checks import one_error_line, run_cli
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -155,3 +155,23 @@ def test_a_really_full_disk_keeps_the_old_deck(tmp_path):
     lines = done.stdout.splitlines()
     assert lines == ["status=2", "old deck", "deck.cir"], (done.stdout, done.stderr)
     assert done.stderr.strip() == "--output: cannot write disk/deck.cir: No space left on device"
+
+
+def test_a_folder_of_results_is_written_whole_or_not_at_all(tmp_path):
+    """A design note is a folder of files: a failure while writing them leaves the folder as it was."""
+    def failing(staging):
+        (staging / "note.md").write_text("half a note")
+        raise OSError(28, "No space left on device")
+
+    with pytest.raises(OutputError, match="No space left on device"):
+        write_folder(tmp_path / "new-note", failing)
+    assert sorted(p.name for p in tmp_path.iterdir()) == []  # neither the folder nor a staging folder
+    old = tmp_path / "old-note"
+    old.mkdir()
+    (old / "note.md").write_text("the reviewed note")
+    with pytest.raises(OutputError):
+        write_folder(old, failing)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["old-note"]
+    assert [p.name for p in old.iterdir()] == ["note.md"] and (old / "note.md").read_text() == "the reviewed note"
+    assert write_folder(old, lambda staging: (staging / "note.md").write_text("new")) == 3
+    assert (old / "note.md").read_text() == "new" and sorted(p.name for p in tmp_path.iterdir()) == ["old-note"]

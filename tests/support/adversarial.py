@@ -23,7 +23,7 @@ drawn from one of these families:
 ``process``     the demo process file mutated (a bad ``tnom``, negative, infinite
                 or missing parameters, unknown sections, broken TOML)
 ``library``     a library topology file mutated, read by ``show``, ``derive`` and ``list``
-``spec``        the example spec file of a ranking mutated, read by the spec reader
+``spec``        the example spec file of a ranking mutated, and hostile options, ranked by ``rank``
 ``options``     a valid netlist under hostile options: sweeps (points, ranges,
                 sources), temperatures, ``--set``, ``--guess``, ``--assume``,
                 tolerances, model levels, output forms

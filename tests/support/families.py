@@ -413,7 +413,7 @@ def output_case(rng: random.Random, index: int) -> Case:
     """Where results are written: folders, names, read-only places, files that must survive, a full stdout."""
     good = text_of(rng.choice(GOOD))
     bad = _add(good, "R99 a99 0 {1/0}")
-    pick = rng.randrange(4)
+    pick = rng.randrange(5)
     old = {"old.cir": "an old deck that must survive\n", "old.png": b"\x89PNG an old plot", "sub/": b""}
     if pick == 0:
         target, why = rng.choice([("out.cir", ""), ("old.cir", ""), ("nodir/out.cir", "missing folder"),
@@ -427,6 +427,12 @@ def output_case(rng: random.Random, index: int) -> Case:
                                   ("/proc/self/p.png", "a read-only place")])
         netlist, why = (bad, "invalid netlist") if rng.random() < 0.3 else (good, why)
         argv = ("sweep", "deck.cir", "--vary", "Vout", "--from", "0", "--to", "5", "--points", "5", "--plot", target)
+        return Case(index, "outputs", argv, {"deck.cir": netlist, **old}, invalid=why, outputs=(target,))
+    if pick == 4:  # a design note: a folder of files, written whole or not at all
+        target, why = rng.choice([("notes", ""), ("sub", ""), ("nodir/notes", "missing parent folder"),
+                                  ("old.cir", "a file, not a folder"), ("/proc/self/notes", "a read-only place")])
+        netlist, why = (bad, "invalid netlist") if rng.random() < 0.3 else (good, why)
+        argv = ("note", "deck.cir", "--samples", "0", "-o", target)
         return Case(index, "outputs", argv, {"deck.cir": netlist, **old}, invalid=why, outputs=(target,))
     if pick == 2:
         argv = rng.choice([["derive", "deck.cir"], ["derive", "deck.cir", "--json"], ["bias", "deck.cir"], ["deck", "deck.cir"],
@@ -503,16 +509,39 @@ SPEC_EDITS = [
     (r"^sigma = .*", "sigma = = 3", "broken TOML"), (r"^area = .*", "area = -1", "negative weight"),
     (r"^outputs = .*", "outputs = 1.5", "outputs not a whole number"), (r"^ratio = .*", 'ratio = "1%"', ""),
     (r"^devices_max = .*", "devices_max = 8", ""), (r"^tc_max = .*", 'tc_max = "50ppm"', ""),
+    (r"^rout_min = .*", 'rout_min = "1meg"', ""), (r"^outputs = .*", "outputs = 1", ""),
+    (r"^random_error_max = .*", 'random_error_max = "5%"', ""), (r"^technology = .*", 'technology = "bjt"', ""),
+    (r"^current = .*", 'current = "1e-15"', ""), (r"^current = .*", 'current = "1"', ""),
+    (r"^\[weights\]", "[weights]\nbogus = 1", "unknown weight"), (r"^\[supply\]", "[supply]\nnominal = 9", ""),
+    (r"^supply_current_max = .*", "", ""), (r"^\[limits\]", "", "limits outside their table"),
+]
+
+
+#: Candidates of the example spec's family (current mirrors, any technology), cheap enough to rank in a case.
+SPEC_CANDIDATES = ("mos-simple-mirror", "bjt-simple-mirror", "mos-wide-swing-cascode-mirror", "bjt-wilson-mirror")
+
+#: Options of ``rank`` with why they are invalid ("" when they may be valid).
+RANK_OPTIONS = [
+    ([], ""), (["--json"], ""), (["--samples", "0"], ""), (["--samples", "-1"], "negative sample count"),
+    (["--samples", "abc"], "sample count not a number"), (["--samples", "99999999999"], "past the sample limit"),
+    (["--seed", "abc"], "seed not a number"), (["--workers", "0"], "no workers"), (["--only", "NOPE"], "unknown id"),
+    (["--only", "brokaw-bandgap"], "a reference for a mirror spec"), (["--library", "nodir"], "missing library"),
+    (["--markdown", "nodir/r.md"], "missing folder"), (["--markdown", "r.txt"], "wrong suffix"),
+    (["--plot", "p.txt"], "wrong suffix"), (["--plot", "sub"], "a folder"), (["--scheduler", "nohost:1"], "no cluster"),
 ]
 
 
 def spec_case(rng: random.Random, index: int) -> Case:
-    """The example spec file mutated, read by the spec reader (the ranking command's input)."""
+    """The example spec file mutated, or hostile options, ranked by ``symbias rank`` on one or two candidates."""
     from .netlists import ROOT
 
     text = (ROOT / "examples" / "sensor_bias_spec.toml").read_text()
-    pattern, new, why = rng.choice(SPEC_EDITS)
+    pattern, new, why = rng.choice(SPEC_EDITS) if rng.random() < 0.7 else ("^$", "", "")
     content: str | bytes = re.sub(pattern, new, text, count=1, flags=re.M)
     if rng.random() < 0.05:
         content, why = bytes(rng.randrange(256) for _ in range(300)), "binary garbage"
-    return Case(index, "spec", ("spec.toml",), {"spec.toml": content}, invalid=why, entry="spec")
+    only = rng.sample(SPEC_CANDIDATES, rng.choice([1, 1, 2]))
+    options, bad = rng.choice(RANK_OPTIONS) if rng.random() < 0.5 else ([], "")
+    argv = ["rank", "spec.toml", "--samples", "50", *(a for name in only for a in ("--only", name)), *options]
+    files = {"spec.toml": content, "sub/": b""}
+    return Case(index, "spec", tuple(argv), files, invalid=why or bad)

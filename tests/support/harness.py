@@ -85,9 +85,6 @@ class Case:
         ``"pipe"`` or ``"full"`` (``/dev/full``: every write fails with ENOSPC).
     env : mapping of str to str
         Environment variables set for the run (``SYMBIAS_LIBRARY``, ``SYMBIAS_MEMORY_LIMIT``).
-    entry : str
-        ``""`` for the command line, or a reader with no command yet (``"spec"``: the spec file
-        reader, judged as a command would be).
     """
 
     index: int
@@ -98,7 +95,6 @@ class Case:
     outputs: tuple[str, ...] = ()
     stdout: str = "pipe"
     env: Mapping[str, str] = field(default_factory=dict)
-    entry: str = ""
 
 
 @dataclass(frozen=True)
@@ -172,8 +168,6 @@ def _child(case: Case, folder: Path, out_path: Path, err_path: Path, entry) -> N
             warnings.simplefilter("ignore", category)
         signal.signal(signal.SIGINT, signal.SIG_DFL)
         os.environ.update(case.env)
-        if entry is None and case.entry:
-            entry = ENTRIES[case.entry]
         if entry is None:
             from symbias.cli import main
 
@@ -194,24 +188,6 @@ def _child(case: Case, folder: Path, out_path: Path, err_path: Path, entry) -> N
             except OSError:
                 pass
         os._exit(status if isinstance(status, int) and 0 <= status < 256 else 71)
-
-
-def _spec_entry(argv: list[str]) -> int:
-    """The spec reader as a command would run it: the spec as JSON, or its one-line error (exit 2)."""
-    from symbias.design.spec import load_spec
-    from symbias.errors import SymbiasError
-
-    try:
-        spec = load_spec(argv[0])
-    except SymbiasError as err:
-        print(str(err), file=sys.stderr)
-        return 2
-    print(json.dumps(spec.to_dict(), default=str))
-    return 0
-
-
-#: Readers that have no command yet, run as one.
-ENTRIES = {"spec": _spec_entry}
 
 
 @dataclass
@@ -356,8 +332,12 @@ def _known_place(case: Case, where: str) -> bool:
 
 def _damage(case: Case, status: int, before: Mapping, after: Mapping) -> str:
     allowed = set(case.outputs) if status == 0 else set()
-    changed = [n for n in before if n not in allowed and after.get(n) != before[n]]
-    created = [n for n in after if n not in before and n not in allowed]
+
+    def may_write(name: str) -> bool:  # an output may be a folder (a design note's)
+        return name in allowed or any(name.startswith(folder.rstrip("/") + "/") for folder in allowed)
+
+    changed = [n for n in before if not may_write(n) and after.get(n) != before[n]]
+    created = [n for n in after if n not in before and not may_write(n)]
     if changed:
         return f"changed or removed: {', '.join(changed[:3])}"
     if created:
