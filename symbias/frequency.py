@@ -125,7 +125,7 @@ def laplace_terms(formula: Formula) -> LaplaceTerms:
         raise AnalysisError(f"{formula.label}: s appears inside {inside[0]}; its powers cannot be read")
     powers = []
     for columns in formula.term_columns:
-        exponents = columns.exponents.astype(np.int64)
+        exponents = columns.exponents  # only the columns of s and 1/s are read (the matrix can be large)
         power = np.zeros(len(exponents), dtype=np.int64)
         if direct is not None:
             power += exponents[:, direct]

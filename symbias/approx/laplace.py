@@ -306,52 +306,98 @@ class _Side:
     over the points of its first 1-8 terms, then of geometrically growing
     prefixes, is computed once; :meth:`choose` bisects between the two
     candidates around a tolerance (the error falls nearly monotonically with
-    the prefix).
+    the prefix).  Arrays are terms x points, so that a group of terms, a
+    prefix and a reordering are runs of whole rows.
     """
 
     def __init__(self, columns: TermColumns, powers: np.ndarray, glog: np.ndarray, gsign: np.ndarray):
         grouped = np.argsort(powers, kind="stable")
         sorted_powers = powers[grouped]
         starts = np.flatnonzero(np.r_[True, sorted_powers[1:] != sorted_powers[:-1]])
-        exponents_t = np.ascontiguousarray(columns.exponents[grouped].T.astype(float))
         coefficient = columns.numerators[grouped].astype(float) / columns.denominators[grouped].astype(float)
         self.size = len(coefficient)
         self.degree = int(powers.max(initial=0))
-        logs = dot(glog, exponents_t) + np.log(np.abs(coefficient))
-        signs = np.sign(coefficient)
+        logs = _exponent_product(columns.exponents, grouped, glog)
+        logs += np.log(np.abs(coefficient))[:, None]
+        signs = np.sign(coefficient)[:, None]
         if np.any(gsign < 0):  # a negative sub-expression generator flips the terms with an odd power of it
-            signs = signs * np.where(dot((gsign < 0).astype(float), exponents_t) % 2 > 0.5, -1.0, 1.0)
+            odd = _exponent_product(columns.exponents, grouped, (gsign < 0).astype(float)) % 2 > 0.5
+            signs = signs * np.where(odd, -1.0, 1.0)
         sizes = np.diff(np.r_[starts, self.size])
-        group_of = np.repeat(np.arange(len(starts)), sizes)
-        top = np.maximum.reduceat(logs, starts, axis=1)
+        spans = [slice(int(first), int(first + size)) for first, size in zip(starts, sizes)]
+        # per group: a maximum over whole rows (numpy's reduceat along the first axis goes row by row)
+        top = np.array([logs[span].max(axis=0) for span in spans])
         top = np.where(np.isfinite(top), top, 0.0)
-        values = np.subtract(logs, top[:, group_of], out=logs)  # in place: these arrays are points x terms
+        values = logs  # in place: these arrays are terms x points
+        for g, span in enumerate(spans):
+            values[span] -= top[g]
         np.exp(values, out=values)
         values *= signs
-        total = np.add.reduceat(values, starts, axis=1)
+        total = np.add.reduceat(values, starts, axis=0)
         scale = np.abs(total)
-        share = np.abs(values)
-        share *= (1.0 / scale)[:, group_of]
-        share = np.nan_to_num(share.max(axis=0), nan=np.inf)
-        within = np.lexsort((-share, group_of))  # groups kept together, most important first
+        share = np.empty(self.size)
+        within = np.empty(self.size, dtype=np.intp)  # groups kept together, most important first
+        with np.errstate(divide="ignore"):
+            inverse = 1.0 / scale
+        buffer = np.empty((min(self.size, _ROWS), values.shape[1]))
+        for g, span in enumerate(spans):
+            for start in range(span.start, span.stop, _ROWS):  # through a small buffer: no second terms x points array
+                rows = slice(start, min(span.stop, start + _ROWS))
+                part = np.abs(values[rows], out=buffer[: rows.stop - rows.start])
+                part *= inverse[g]
+                share[rows] = part.max(axis=1) if part.shape[1] else np.nan
+            within[span] = span.start + np.argsort(-np.nan_to_num(share[span], nan=np.inf), kind="stable")
         self.rows_by_rank = grouped[within]  # original term index of each ranked position
-        ranked = values[:, within]
+        self._values, self._within = values, within  # partial sums are read from these on demand
         self.groups: dict[int, slice] = {}
-        self.top, self.total, self.cumulative, self.candidates, self.worst, self.scale = {}, {}, {}, {}, {}, {}
-        for g, first in enumerate(starts):
-            k, span = int(sorted_powers[first]), slice(int(first), int(first + sizes[g]))
+        self.top, self.total, self.candidates, self.worst, self.scale = {}, {}, {}, {}, {}
+        self._partial: dict[int, dict[int, np.ndarray]] = {}  # per power: count -> sum of its first count terms
+        for g, span in enumerate(spans):
+            k = int(sorted_powers[span.start])
             self.groups[k] = span
-            self.top[k], self.total[k], self.scale[k] = top[:, g], total[:, g], scale[:, g]
-            self.cumulative[k] = np.cumsum(ranked[:, span], axis=1)
-            self.candidates[k] = _candidates(int(sizes[g]))
+            self.top[k], self.total[k], self.scale[k] = top[g], total[g], scale[g]
+            self.candidates[k] = _candidates(span.stop - span.start)
+            self._partial[k] = {}
+            self._running(k, 0, int(self.candidates[k][-1]), self.candidates[k])
             self.worst[k] = self._errors(k, self.candidates[k])
+
+    def _running(self, k: int, first: int, last: int, wanted: np.ndarray | None = None) -> None:
+        """Store the sums of the first ``first+1 .. last`` ranked terms of coefficient ``k`` (only the
+        counts in ``wanted`` when given).
+
+        They are the running sums ``numpy.cumsum`` gives over the ranked terms (the same additions in
+        the same order), taken a block of rows at a time and continued from the known sum of the first
+        ``first`` terms, so no sorted copy of the whole side is made.
+        """
+        start_row, known = self.groups[k].start, self._partial[k]
+        running = known[first] if first else None
+        for start in range(first, last, _ROWS):
+            stop = min(last, start + _ROWS)
+            chunk = self._values[self._within[start_row + start:start_row + stop]]
+            if running is not None:
+                chunk[0] += running
+            np.cumsum(chunk, axis=0, out=chunk)
+            running = chunk[-1]
+            counts = np.arange(start + 1, stop + 1) if wanted is None else \
+                wanted[(wanted > start) & (wanted <= stop)]
+            known.update(zip(counts.tolist(), chunk[counts - start - 1]))
+
+    def _sum(self, k: int, count: int) -> np.ndarray:
+        """The sum of the first ``count`` ranked terms of coefficient ``k`` at every point."""
+        known = self._partial[k]
+        if count not in known:  # between two candidates: every count of that stretch, once
+            candidates = self.candidates[k]
+            position = int(np.searchsorted(candidates, count))
+            low = int(candidates[position - 1]) if position else 0
+            self._running(k, low, int(candidates[position]))
+        return known[count]
 
     def _errors(self, k: int, counts: np.ndarray) -> np.ndarray:
         """Worst relative error over the points of the first ``counts`` terms of coefficient ``k``."""
-        partial = self.cumulative[k][:, counts - 1]
-        errors = np.abs(partial - self.total[k][:, None]) / self.scale[k][:, None]
-        errors = np.where(np.isfinite(errors), errors, np.where(partial == self.total[k][:, None], 0.0, np.inf))
-        return errors.max(axis=0) if len(errors) else np.zeros(len(counts))
+        partial = np.array([self._sum(k, int(c)) for c in counts])
+        errors = np.abs(partial - self.total[k]) / self.scale[k]
+        errors = np.where(np.isfinite(errors), errors, np.where(partial == self.total[k], 0.0, np.inf))
+        return errors.max(axis=1) if errors.shape[1] else np.zeros(len(counts))
 
     def all_terms(self) -> dict[int, int]:
         return {k: span.stop - span.start for k, span in self.groups.items()}
@@ -382,7 +428,7 @@ class _Side:
         top = np.zeros((points, self.degree + 1))
         for k in self.groups:
             top[:, k] = self.top[k]
-            mantissa[:, k] = self.total[k] if choice is None else self.cumulative[k][:, choice[k] - 1]
+            mantissa[:, k] = self.total[k] if choice is None else self._sum(k, choice[k])
         return mantissa, top
 
     def rows(self, choice, powers: Iterable[int] | None = None) -> np.ndarray:
@@ -390,6 +436,25 @@ class _Side:
         parts = [self.rows_by_rank[self.groups[k].start:self.groups[k].start + choice[k]]
                  for k in (self.groups if powers is None else powers)]
         return np.sort(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.intp)
+
+
+#: Rows (terms) handled at once where a terms x points temporary would otherwise be made: a large fresh
+#: array costs a page fault per 4 KiB, more than the arithmetic done in it.
+_ROWS = 4096
+
+
+def _exponent_product(exponents: np.ndarray, order: np.ndarray, right: np.ndarray) -> np.ndarray:
+    """``exponents[order] @ right.T`` (terms x points), the exponents turned to floats a block of rows at a time.
+
+    The blocks are sized like :func:`~symbias.approx.arrays.dot`'s, so BLAS stays on the calling thread.
+    """
+    right_t = np.ascontiguousarray(right.T)
+    out = np.empty((len(order), right_t.shape[1]))
+    rows = max(1, min(_ROWS, 262_144 // max(1, right_t.size)))
+    for start in range(0, len(order), rows):
+        block = order[start:start + rows]
+        np.matmul(exponents[block].astype(float), right_t, out=out[start:start + len(block)])
+    return out
 
 
 @lru_cache(maxsize=1024)

@@ -32,7 +32,6 @@ Examples
 
 from __future__ import annotations
 
-import itertools
 import math
 from dataclasses import dataclass
 from typing import Iterable, Mapping, Sequence
@@ -65,6 +64,7 @@ FREE_RANGE = (1e-2, 1e2)
 MAX_CORNERS = 1024
 
 _SAMPLE_ROWS = 1 << 17  # random points drawn in one numpy pass while sampling
+_RANK_TOLERANCE = 1e-9  # relative residual below which a row lies in the span of the rows before it
 
 
 @dataclass(frozen=True, eq=False)
@@ -179,7 +179,9 @@ class MagnitudeModel:
         if not free:  # every range is a single value: the box is one point
             return np.full((1, k), 0.5)
         if 2 ** len(free) <= MAX_CORNERS:
-            bits = np.array(list(itertools.product((0.0, 1.0), repeat=len(free)))).reshape(-1, len(free))
+            # every corner in the order of itertools.product((0, 1), repeat=...): the first factor is the high bit
+            index = np.arange(2 ** len(free))[:, None]
+            bits = ((index >> np.arange(len(free) - 1, -1, -1)) & 1).astype(float)
         else:
             bits = np.random.default_rng(seed + 7919).integers(0, 2, size=(MAX_CORNERS, len(free))).astype(float)
         unit = np.full((len(bits), k), 0.5)
@@ -319,7 +321,7 @@ def _statement(item: Assumption | str) -> Assumption:
 
 def _open_defaults(names: Sequence[str], user: Sequence[Assumption]) -> list[Assumption]:
     """The hand-analysis defaults the user's statements leave open."""
-    rows = [a.row(names) for a in user]
+    rows = _Span(len(names), (a.row(names) for a in user))
     settled = {n for n in names if rows and not _independent(rows, _unit_row(names, n))}
     return [default for default in default_assumptions(names)
             if not default.names <= settled and not any(_parallel(default.row(names), r) for r in rows)]
@@ -332,13 +334,13 @@ def _factors_and_checks(names: Sequence[str], statements: Sequence[Assumption]):
     """
     factors: list[Assumption] = []
     checks: list[Assumption] = []
-    rows: list[np.ndarray] = []
+    rows = _Span(len(names))
     for statement in statements:
         row = statement.row(names)
         if _independent(rows, row):
             factors.append(statement)
             rows.append(row)
-        elif not any(_parallel(row, r) and a.low == statement.low and a.high == statement.high
+        elif not any(a.low == statement.low and a.high == statement.high and _parallel(row, r)
                      for a, r in zip(factors, rows)):
             checks.append(statement)
     return factors, checks, rows
@@ -401,15 +403,52 @@ def _unit_row(names: Sequence[str], name: str) -> np.ndarray:
     return row
 
 
-def _independent(rows: list[np.ndarray], row: np.ndarray) -> bool:
-    if not np.any(row):
-        return False
-    if not rows:
-        return True
-    # the rank test of numpy's matrix_rank (same tolerance), without its wrapper: this runs for every statement
-    matrix = np.vstack(rows + [row])
-    singular = np.linalg.svd(matrix, compute_uv=False)
-    return int(np.sum(singular > singular[0] * max(matrix.shape) * np.finfo(float).eps)) > len(rows)
+class _Span:
+    """Log-space rows taken in order, with an orthonormal basis of their span.
+
+    Why: the rank test runs for every statement and every symbol; one SVD of
+    the stacked rows each time cost milliseconds per model.  Projecting a new
+    row on the basis gives the same answer (the rows are small integers or
+    halves, either clearly inside the span or clearly outside).
+    """
+
+    def __init__(self, size: int, rows: Iterable[np.ndarray] = ()):
+        self.rows: list[np.ndarray] = []
+        self._basis = np.zeros((0, size))
+        for row in rows:
+            self.append(row)
+
+    def __iter__(self):
+        return iter(self.rows)
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def _residual(self, row: np.ndarray) -> np.ndarray:
+        residual = np.asarray(row, dtype=float)
+        for _ in range(2):  # twice: classical Gram-Schmidt loses orthogonality once
+            residual = residual - (self._basis @ residual) @ self._basis
+        return residual
+
+    def independent(self, row: np.ndarray) -> bool:
+        """True when the rows and ``row`` have a rank above the number of rows (so never for a zero row)."""
+        if not np.any(row):
+            return False
+        if len(self._basis) < len(self.rows):  # dependent rows already: one more cannot lift the rank past the count
+            return False
+        return bool(np.linalg.norm(self._residual(row)) > _RANK_TOLERANCE * np.linalg.norm(row))
+
+    def append(self, row: np.ndarray) -> None:
+        if np.any(row):
+            residual = self._residual(row)
+            size = np.linalg.norm(residual)
+            if size > _RANK_TOLERANCE * np.linalg.norm(row):
+                self._basis = np.vstack([self._basis, residual / size])
+        self.rows.append(row)
+
+
+def _independent(rows: _Span, row: np.ndarray) -> bool:
+    return rows.independent(row)
 
 
 def _parallel(a: np.ndarray, b: np.ndarray) -> bool:

@@ -241,13 +241,14 @@ def bjt_currents(vbe, vbc, t: BjtAtTemperature) -> BjtCurrents:
     transport = icc - iec
     reverse_base = iec / t.br
     gmin = t.mult * GMIN
+    gec_br = gec / t.br
     return BjtCurrents(
         ic=transport * early - reverse_base,
         ib=icc / t.bf + reverse_base + gmin * (vbe + vbc),
         dic_dvbe=gcc * early,
-        dic_dvbc=-gec * early - transport * t.inv_vaf - gec / t.br,
+        dic_dvbc=-gec * early - transport * t.inv_vaf - gec_br,
         dib_dvbe=gcc / t.bf + gmin,
-        dib_dvbc=gec / t.br + gmin,
+        dib_dvbc=gec_br + gmin,
         icc=icc,
         iec=iec,
     )
@@ -337,10 +338,11 @@ def bjt_vcesat(vbe, t: BjtAtTemperature, fraction: float = SATURATION_FRACTION):
     vbe = np.asarray(vbe, dtype=float)
     icc = t.is_ * (np.exp(vbe / (t.nf * t.vt)) - 1.0)
     vbc = vbe - 0.1
+    share, base, vtr = fraction * icc, 1.0 / t.br, t.nr * t.vt  # loop invariants (same products as in the loop)
     for _ in range(6):
         early = 1.0 - vbc * t.inv_vaf
-        target = fraction * icc * early / (early + 1.0 / t.br)
-        vbc = t.nr * t.vt * np.log1p(target / t.is_)
+        target = share * early / (early + base)
+        vbc = vtr * np.log1p(target / t.is_)
     return vbe - vbc
 
 

@@ -94,10 +94,11 @@ def safe_exp_and_slope(x):
     (True, True)
     """
     x = np.asarray(x, dtype=float)
-    slope = np.exp(np.minimum(x, _EXP_LIMIT))
-    over = x > _EXP_LIMIT
-    if not over.any():
+    top = x.max() if x.size else 0.0
+    if top <= _EXP_LIMIT:  # one reduction instead of a clipped copy and a mask (nan falls through)
+        slope = np.exp(x)
         return slope, slope
+    slope = np.exp(np.minimum(x, _EXP_LIMIT))
     return slope * (1.0 + np.maximum(x - _EXP_LIMIT, 0.0)), slope
 
 
