@@ -128,13 +128,17 @@ def check_terms(terms: int, limit: int, name: str, what: str, instead: str, path
                          path=path)
 
 
+#: The smallest memory limit accepted: the interpreter and the libraries' import need about this much.
+MIN_MEMORY_LIMIT = 24 * 2**20
+
+
 def memory_limit(environ: dict | None = None) -> int | None:
     """The memory limit in bytes from :data:`MEMORY_VARIABLE` (None when ``off``), else :data:`MEMORY_LIMIT`.
 
     Raises
     ------
     LimitError
-        For a value that is no size.
+        For a value that is no size, or below :data:`MIN_MEMORY_LIMIT`.
 
     Examples
     --------
@@ -155,6 +159,10 @@ def memory_limit(environ: dict | None = None) -> int | None:
         size = 0
     if size <= 0:
         raise LimitError(f"{text!r} is no size: write e.g. 4G, 900M or off", path=MEMORY_VARIABLE)
+    if size < MIN_MEMORY_LIMIT:
+        # below this even Python's own compiler fails mid-import, with misleading errors
+        raise LimitError(f"{text!r} is less than the {MIN_MEMORY_LIMIT // 2**20}M the program itself needs: "
+                         "write e.g. 4G, 900M or off", path=MEMORY_VARIABLE)
     return size
 
 

@@ -371,7 +371,7 @@ def option_case(rng: random.Random, index: int) -> Case:
         name, value, why = rng.choice([
             ("SYMBIAS_LIBRARY", "nodir", "library folder missing"), ("SYMBIAS_LIBRARY", "deck.cir", "not a folder"),
             ("SYMBIAS_LIBRARY", "badlib", "broken library file"), ("SYMBIAS_MEMORY_LIMIT", "bogus", "no size"),
-            ("SYMBIAS_MEMORY_LIMIT", "-5G", "no size"), ("SYMBIAS_MEMORY_LIMIT", "1M", ""),
+            ("SYMBIAS_MEMORY_LIMIT", "-5G", "no size"), ("SYMBIAS_MEMORY_LIMIT", "1M", "below the smallest limit"),
             ("SYMBIAS_MEMORY_LIMIT", "4G", ""), ("SYMBIAS_MEMORY_LIMIT", "off", "")])
         argv = rng.choice([["list"], ["show", "bjt-simple-mirror", "--no-derive"], ["derive", "deck.cir"]])
         if name == "SYMBIAS_LIBRARY" and argv[0] == "derive":
