@@ -288,14 +288,9 @@ def _points(model: MagnitudeModel, size: int, samples: int, seed: int) -> tuple[
     corners = model.corners(seed)
     if len(corners) > _MAX_CORNERS:
         corners = corners[np.random.default_rng(seed + 1).choice(len(corners), _MAX_CORNERS, replace=False)]
-    corners = corners[model.admissible(model.logs(corners))]
+    corners = corners[model.admissible(model.logs(corners))]  # the random points fill up to the admitted corners
     wanted = max(_MIN_POINTS, min(samples, POINT_TERMS // max(1, size) - len(corners)))
-    random, drawn = model.admitted_sample(wanted, seed)
-    unit = np.vstack([corners, random])
-    if not len(unit):
-        raise AssumptionError("no point satisfies every assumption: "
-                              + "; ".join(a.describe() for a in model.assumptions))
-    return unit, len(corners), drawn
+    return model.admitted_points(corners, wanted, seed)
 
 
 class _Side:

@@ -229,6 +229,25 @@ class MagnitudeModel:
         unit = np.vstack(kept)[:n] if kept else np.empty((0, k))
         return unit, drawn
 
+    def admitted_points(self, corners: np.ndarray, samples: int, seed: int = 0) -> tuple[np.ndarray, int, int]:
+        """The admissible ones of ``corners`` and ``samples`` admitted random points, stacked.
+
+        Returns the unit-box points, how many corners were kept and how many random points were drawn.
+
+        Raises
+        ------
+        AssumptionError
+            When no point satisfies every assumption.
+        """
+        corners = corners[self.admissible(self.logs(corners))]
+        random, drawn = self.admitted_sample(samples, seed)
+        unit = np.vstack([corners, random])
+        if not len(unit):
+            raise AssumptionError("no point satisfies every assumption: "
+                                  + "; ".join(a.describe() for a in self.assumptions)
+                                  + " (drop a default with an explicit statement or with defaults=False)")
+        return unit, len(corners), drawn
+
     def values(self, unit: np.ndarray) -> dict[str, np.ndarray]:
         """Symbol values at unit-box points."""
         logs = self.logs(unit)

@@ -239,7 +239,7 @@ def approximate(
         # a single term, a number or zero is its own approximation
         return Approximation(formula, formula, 0.0, {}, (), tolerance, 0, 0, 0, 0, seed, ((nN, nN), (nD, nD)))
     model = magnitude_model(names, assumptions, defaults=defaults, meanings=formula.meanings)
-    unit, ncorners, drawn = _sample_points(model, samples, seed)
+    unit, ncorners, drawn = model.admitted_points(model.corners(seed), samples, seed)
     terms = TermValues(formula, model.names)
     terms.prepare(model.logs(unit))
     kept, error, worst_unit, refined = TermSearch(terms, tolerance, model, unit).run()
@@ -249,19 +249,6 @@ def approximate(
     counts = ((len(kept[0]), nN), (len(kept[1]), nD))
     return Approximation(formula, approx, float(error), point, model.assumptions, tolerance, ncorners, drawn,
                          refined, len(unit), seed, counts, model)
-
-
-def _sample_points(model: MagnitudeModel, samples: int, seed: int) -> tuple[np.ndarray, int, int]:
-    """The admissible box corners and random points (unit coordinates), the number of corners and of draws."""
-    corners = model.corners(seed)
-    corners = corners[model.admissible(model.logs(corners))]
-    random, drawn = model.admitted_sample(samples, seed)
-    unit = np.vstack([corners, random])
-    if not len(unit):
-        raise AssumptionError("no point satisfies every assumption: "
-                              + "; ".join(a.describe() for a in model.assumptions)
-                              + " (drop a default with an explicit statement or with defaults=False)")
-    return unit, len(corners), drawn
 
 
 def _check_options(tolerance: float, samples: int) -> None:
