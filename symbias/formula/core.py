@@ -173,6 +173,12 @@ class Formula:
         return user_term_dicts(self._user_form, num), user_term_dicts(self._user_form, den)
 
     # -- text -----------------------------------------------------------------------
+    @property
+    def factor_texts(self) -> tuple[str, ...]:
+        """Every factor as the exact text writes it (a symbol name or a parenthesised sub-expression);
+        with digits, ``+*/()`` and spaces these are all the characters of the exact text."""
+        return self._user_form.texts
+
     def numerator_chunks(self) -> Iterator[str]:
         """The numerator in user symbols as text chunks (see :meth:`exact_chunks`)."""
         return polynomial_chunks(self._user_form, self._columns[0])

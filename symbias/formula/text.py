@@ -55,7 +55,7 @@ def polynomial_chunks(form: UserForm, columns: TermColumns, chunk: int = CHUNK) 
     for start in range(0, len(columns), chunk):
         stop = min(start + chunk, len(columns))
         numerators, denominators = columns.numerators[start:stop], columns.denominators[start:stop]
-        exponents = user_exponents(form, columns.exponents[start:stop])[:, writer.order]
+        exponents = user_exponents(form, columns.exponents[start:stop], writer.order)
         if numerators.dtype == object or denominators.dtype == object:
             block = TermColumns(columns.exponents[start:stop], numerators, denominators)
             yield (" + " if start else "") + terms_to_text(user_term_dicts(form, block))
@@ -135,7 +135,11 @@ class _PieceTable:
         rows, cols = np.nonzero(present)  # row-major: each term's factors in text order
         leading = np.ones(len(rows), dtype=bool)
         leading[1:] = rows[1:] != rows[:-1]
-        factor_ids = self._factor_ids(exponents)[cols, exponents[rows, cols]] + leading
+        table = self._factor_ids(exponents)
+        if table.shape[1] == 2:  # no power above 1: the column alone names the piece
+            factor_ids = table[:, 1][cols] + leading
+        else:
+            factor_ids = table[cols, exponents[rows, cols]] + leading
         # each term: its header, then its factors
         header_at = np.arange(len(counts)) + np.concatenate([[0], np.cumsum(counts)[:-1]])
         ids = np.empty(len(counts) + len(rows), dtype=np.int64)

@@ -26,6 +26,7 @@ Examples
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from fractions import Fraction
 from typing import Any, Sequence
 
@@ -62,11 +63,19 @@ class UserForm:
     matrix: np.ndarray
     shift: np.ndarray
 
-    @property
+    @cached_property
     def sources(self) -> list[list[tuple[int, int]]]:
         """Per factor, its ``(generator, sign)`` pairs (one, or two for ``x`` with ``1/x``)."""
         return [[(int(g), int(self.matrix[g, k])) for g in np.nonzero(self.matrix[:, k])[0]]
                 for k in range(self.matrix.shape[1])]
+
+    @cached_property
+    def generator_of_factor(self) -> np.ndarray | None:
+        """When every factor is one generator to the first power with no shift (a plain product of
+        symbols, the common case): the generator of each factor; else None."""
+        if np.any(self.shift) or any(len(pairs) != 1 or pairs[0][1] != 1 for pairs in self.sources):
+            return None
+        return np.array([pairs[0][0] for pairs in self.sources], dtype=np.intp)
 
 
 def _factor_matrix(variables: Sequence[RingVariable]) -> tuple[list[Any], np.ndarray]:
@@ -125,8 +134,17 @@ def _factor_column(exponents: np.ndarray, sources: list[tuple[int, int]]) -> np.
     return total
 
 
-def user_exponents(form: UserForm, exponents: np.ndarray) -> np.ndarray:
-    """Factor exponents of a block of generator exponent rows (all >= 0)."""
+def user_exponents(form: UserForm, exponents: np.ndarray, order: Sequence[int] | None = None) -> np.ndarray:
+    """Factor exponents of a block of generator exponent rows (all >= 0), factors taken in ``order``.
+
+    A plain product of symbols is a column selection that keeps the small dtype;
+    otherwise exponents are summed in ``int32``.
+    """
+    direct = form.generator_of_factor
+    if direct is not None:
+        return exponents[:, direct if order is None else direct[np.asarray(order, dtype=np.intp)]]
+    if order is not None:
+        return user_exponents(form, exponents)[:, order]
     out = np.empty((len(exponents), len(form.keys)), dtype=np.int32)
     for k, sources in enumerate(form.sources):
         out[:, k] = _factor_column(exponents, sources) + form.shift[k]
