@@ -90,7 +90,8 @@ def _run(identifier: str, timeout: float, memory_gb: float) -> dict:
     lines = done.stdout.strip().splitlines()
     if done.returncode != 0 or not lines:
         tail = (done.stderr.strip().splitlines() or ["no output"])[-1]
-        return {"case": identifier, "skipped": "no exact result: " + tail[-80:]}
+        reason = tail.split("Error: ", 1)[-1].split(".toml: ", 1)[-1].split(";")[0]
+        return {"case": identifier, "skipped": "no exact result: " + reason}
     return json.loads(lines[-1])
 
 
