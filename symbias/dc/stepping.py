@@ -37,6 +37,7 @@ from typing import Mapping
 import numpy as np
 
 from ..errors import CircuitError, ConvergenceError, SymbiasError
+from .heap import keep_heap_headroom
 from .newton import Attempt, DcOptions, guess_vector, newton, rows_of
 from .system import DcSystem
 
@@ -163,6 +164,7 @@ def solve_batch(system: DcSystem, *, overrides: Mapping[str, object] | None = No
     n = system.size
     start_rows = 0 if start is None else np.atleast_2d(np.asarray(getattr(start, "x", start))).shape[0]
     count = max(system.batch if index is None else len(index), rhs.shape[0], start_rows)
+    keep_heap_headroom(count)
     positions = np.arange(count) if index is None else np.asarray(index, dtype=int)
     collect = _Collector(system, count)
     todo = np.arange(count)
