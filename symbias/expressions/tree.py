@@ -479,12 +479,18 @@ def multiply(*args: Expr) -> Expr:
             coeff *= arg.value
             continue
         base, exponent = _base_exponent(arg)
-        if base not in exponents:
-            exponents[base] = ZERO
+        if base not in exponents:  # a canonical factor's exponent is already canonical
+            exponents[base] = exponent
             order.append(base)
-        exponents[base] = add(exponents[base], exponent)
+        else:
+            exponents[base] = add(exponents[base], exponent)
     if coeff == 0:
         return ZERO
+    if coeff == 1 and len(order) == 1 and len(flat) - len(order) <= 1:
+        # one canonical factor (times 1): e.g. the 1/x of every resistor stamp
+        single = next(a for a in flat if not isinstance(a, Number))
+        if _base_exponent(single)[1] is exponents[order[0]]:
+            return single
     factors: list[Expr] = []
     for base in order:
         factor = power(base, exponents[base])
