@@ -247,6 +247,8 @@ def approximate_frequency(formula: Formula, assumptions: Iterable[Assumption | s
         raise AssumptionError(f"tolerance must be positive and samples >= 0, got {tolerance!r}, {samples!r}")
     if not (0 < band[0] < band[1] < math.inf):
         raise AssumptionError(f"the band must be 0 < f1 < f2, got {band[0]:g} to {band[1]:g} Hz")
+    if not formula.nterms[0]:
+        raise AssumptionError(f"{formula.label} is exactly 0: there is nothing to approximate")
     terms = laplace_terms(formula)
     names = [s.name for s in formula.symbols if s.name != LAPLACE]
     model = magnitude_model(names, assumptions, defaults=defaults, meanings=formula.meanings)

@@ -37,6 +37,7 @@ from ..circuit import Circuit
 from ..devices.options import SmallSignalOptions
 from ..errors import AnalysisError
 from ..formula import Formula
+from ..linear.limits import check_size, check_terms
 from ..linear.mna import CofactorSolver, LinearProblem, Solution, build_system, solve, unknowns
 from ..linear.network import LinearNetwork, expand
 from ..symbols import LAPLACE, NOISE_MEANINGS
@@ -143,7 +144,9 @@ def source_transfers(network: LinearNetwork, sources: Sequence[NoiseSource], out
     """
     labels = unknowns(network)
     index = {label: i for i, label in enumerate(labels)}
+    check_size(network, len(labels))  # the same limits as every exact solve, before any expansion
     ring, variables, entries = build_system(network, backend)
+    check_terms(CofactorSolver, ring, entries, len(labels), network.path)
     solver = CofactorSolver(ring, len(labels), entries)
     det = solver.det()
     if det is None:

@@ -88,7 +88,7 @@ def operating_point_tables(op, circuit=None) -> list[Any]:
         for column, justify in (("output", "left"), (Text("I [A]"), "right"), ("sign", "left")):
             table.add_column(column, justify=justify)
         for current, value in rows:
-            table.add_row(Text(current.label), engineering(value), f"positive: {current.meaning}")
+            table.add_row(Text(current.label), engineering(value), Text(f"positive: {current.meaning}"))
         out.append(table)
     return out + device_tables(op)
 

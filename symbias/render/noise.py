@@ -21,6 +21,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from rich.text import Text
+
 from .console import CAUTION, engineering, render_to_string
 
 __all__ = ["noise_renderables", "noise_record", "noise_markdown", "noise_plot", "render_to_string"]
@@ -49,12 +51,12 @@ def noise_renderables(result) -> list[Any]:
     for column in ("source", "kind", f"at output ({unit})", "root", "share"):
         ranked.add_column(column, justify="left" if column in ("source", "kind") else "right")
     for row in spectrum.ranked(at):
-        ranked.add_row(row.name, row.kind, f"{row.density:.4g}", _root(row.density, result), f"{100 * row.share:.1f} %")
+        ranked.add_row(Text(row.name), Text(row.kind), f"{row.density:.4g}", _root(row.density, result), f"{100 * row.share:.1f} %")
     devices = Table(title="by element", title_justify="left")
     for column in ("element", "kinds", f"at output ({unit})", "share"):
         devices.add_column(column, justify="left" if column in ("element", "kinds") else "right")
     for row in spectrum.by_element(at):
-        devices.add_row(row.element, row.kind, f"{row.density:.4g}", f"{100 * row.share:.1f} %")
+        devices.add_row(Text(row.element), Text(row.kind), f"{row.density:.4g}", f"{100 * row.share:.1f} %")
     totals = Table(title="totals", title_justify="left", show_header=False)
     totals.add_column("item")
     totals.add_column("value", justify="right")
