@@ -59,7 +59,7 @@ def _progress(enabled: bool):
     from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-    console = Console(file=sys.stderr)
+    console = Console(file=sys.stderr, highlight=False)
     if not enabled or not console.is_terminal:
         return None, nullcontext()
     bar = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),

@@ -57,7 +57,7 @@ def _progress(points: int):
     from rich.console import Console
     from rich.progress import Progress
 
-    console = Console(file=sys.stderr)
+    console = Console(file=sys.stderr, highlight=False)
     if points < 100 or not console.is_terminal:
         return None, nullcontext()
     bar = Progress(console=console, transient=True)

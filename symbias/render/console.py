@@ -66,8 +66,8 @@ def terminal_console(stream=None) -> Any:
     from rich.console import Console
 
     stream = stream or sys.stdout
-    out = Console(file=stream)
-    return out if out.is_terminal else Console(file=stream, width=120)
+    out = Console(file=stream, highlight=False)  # the automatic highlighter backtracks for minutes on long lines
+    return out if out.is_terminal else Console(file=stream, width=120, highlight=False)
 
 
 def render_to_string(renderable: Any, width: int = 100) -> str:
@@ -80,7 +80,7 @@ def render_to_string(renderable: Any, width: int = 100) -> str:
     """
     from rich.console import Console
 
-    console = Console(width=width, record=True, color_system=None, file=_Null())
+    console = Console(width=width, record=True, color_system=None, file=_Null(), highlight=False)
     console.print(renderable)
     return console.export_text()
 

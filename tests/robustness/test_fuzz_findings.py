@@ -63,3 +63,27 @@ def test_noise_at_the_full_level_stops_at_the_term_limit_before_expanding(tmp_pa
     assert status != 0 and not changed
     match = one_error_line(err)
     assert match.group("where").endswith("deck.cir") and "MAX_TERM_ESTIMATE" in match.group("cause")
+
+
+LONG_TITLE = "\u202etitle with a right-to-left mark " + "x" * 1500 + """
+* invented product
+VCC vcc 0 5
+Iref vcc in 20u
+Q1 in in 0 QN
+Q2 out in 0 QN
+Vout out 0 2.5
+.model QN npn (IS=1e-16 BF=120 VAF=60)
+.end
+"""
+
+
+def test_a_very_long_title_line_prints_at_once(tmp_path, monkeypatch, capsys):
+    # rich's automatic highlighter backtracked for minutes on such a line (a 20 s timeout in the run)
+    import time
+
+    start = time.perf_counter()
+    status, out, err, _ = run_cli(tmp_path, monkeypatch, capsys, ["frequency", "deck.cir", "--points", "3"],
+                                  {"deck.cir": LONG_TITLE})
+    assert status == 0, err
+    assert "x" * 50 in out
+    assert time.perf_counter() - start < 15  # seconds, against minutes: not a speed target
