@@ -37,7 +37,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Any, Iterable, Mapping
+from typing import Any, Iterable, Mapping, Sequence
 
 from ..circuit import GROUND
 from ..elements import BRANCH_PRIMITIVES, Primitive
@@ -55,6 +55,8 @@ __all__ = [
     "unknowns",
     "encode",
     "stamp",
+    "expanded_system",
+    "transfer_numerator",
     "solve",
 ]
 
@@ -440,6 +442,44 @@ def build_system(network: LinearNetwork, backend: str | None = None):
     return ring, variables, entries
 
 
+def expanded_system(network: LinearNetwork, backend: str | None = None):
+    """Unknown index, ring, generator meanings, cofactor solver and determinant of a network's MNA system.
+
+    The size limits are checked before anything is expanded, so every exact
+    solve (a single transfer, or all noise transfers at once) stops at the same
+    bounds.
+
+    Raises
+    ------
+    LimitError
+        When the system or its determinant is over a documented limit.
+    AnalysisError
+        When ``det(A)`` is zero, naming the likely cause.
+    """
+    labels = unknowns(network)
+    check_size(network, len(labels))
+    ring, variables, entries = build_system(network, backend)
+    check_terms(CofactorSolver, ring, entries, len(labels), network.path)
+    solver = CofactorSolver(ring, len(labels), entries)
+    det = solver.det()
+    if det is None:
+        reason, line = _singular_reason(network, entries, labels)
+        raise AnalysisError(reason, path=network.path, line=line)
+    return {label: i for i, label in enumerate(labels)}, ring, variables, solver, det
+
+
+def transfer_numerator(ring: Ring, solver: "CofactorSolver", index: Mapping[str, int],
+                       rhs: Sequence[tuple[str, Any]], observe: Sequence[tuple[str, Any]]):
+    """The numerator of ``c^T A^-1 b``: the cofactors of the driven and observed unknowns, weighted."""
+    numerator = ring.zero
+    for out_label, c in observe:
+        for in_label, b in rhs:
+            cofactor = solver.cofactor(index[in_label], index[out_label])
+            if cofactor is not None:
+                numerator = numerator + cofactor * (c * b)
+    return numerator
+
+
 def solve(problem: LinearProblem, backend: str | None = None) -> Solution:
     """Solve ``c^T A^-1 b`` exactly as numerator and denominator polynomials.
 
@@ -449,26 +489,13 @@ def solve(problem: LinearProblem, backend: str | None = None) -> Solution:
         When ``det(A)`` is zero, naming the likely cause.
     """
     network = problem.network
-    labels = unknowns(network)
-    index = {label: i for i, label in enumerate(labels)}
+    labels = set(unknowns(network))
     for label, _ in problem.rhs + problem.observe:
-        if label not in index:
+        if label not in labels:
             raise AnalysisError(f"{label.split(':', 1)[1]!r} is not a node or source of the network (ground?)",
                                 path=network.path)
-    check_size(network, len(labels))
-    ring, variables, entries = build_system(network, backend)
-    check_terms(CofactorSolver, ring, entries, len(labels), network.path)
-    solver = CofactorSolver(ring, len(labels), entries)
-    det = solver.det()
-    if det is None:
-        reason, line = _singular_reason(network, entries, labels)
-        raise AnalysisError(reason, path=network.path, line=line)
-    numerator = ring.zero
-    for out_label, c in problem.observe:
-        for in_label, b in problem.rhs:
-            cof = solver.cofactor(index[in_label], index[out_label])
-            if cof is not None:
-                numerator = numerator + cof * (c * b)
+    index, ring, variables, solver, det = expanded_system(network, backend)
+    numerator = transfer_numerator(ring, solver, index, problem.rhs, problem.observe)
     return Solution(ring, variables, numerator, det, len(solver.memo))
 
 

@@ -35,10 +35,8 @@ from typing import Any, Mapping, Sequence
 
 from ..circuit import Circuit
 from ..devices.options import SmallSignalOptions
-from ..errors import AnalysisError
 from ..formula import Formula
-from ..linear.limits import check_size, check_terms
-from ..linear.mna import CofactorSolver, LinearProblem, Solution, build_system, solve, unknowns
+from ..linear.mna import LinearProblem, Solution, expanded_system, transfer_numerator
 from ..linear.network import LinearNetwork, expand
 from ..symbols import LAPLACE, NOISE_MEANINGS
 from ..transfer_error import limit
@@ -140,28 +138,14 @@ def source_transfers(network: LinearNetwork, sources: Sequence[NoiseSource], out
     Raises
     ------
     AnalysisError
-        When the network is singular (with the cause, as :func:`~symbias.linear.mna.solve` gives it).
+        When the network is singular (with the cause, as :func:`~symbias.linear.mna.expanded_system` gives it).
+    LimitError
+        Over the size limits every exact solve has.
     """
-    labels = unknowns(network)
-    index = {label: i for i, label in enumerate(labels)}
-    check_size(network, len(labels))  # the same limits as every exact solve, before any expansion
-    ring, variables, entries = build_system(network, backend)
-    check_terms(CofactorSolver, ring, entries, len(labels), network.path)
-    solver = CofactorSolver(ring, len(labels), entries)
-    det = solver.det()
-    if det is None:
-        solve(LinearProblem(network, drive(sources[0].nodes) if sources else (), output.observe), backend)
-        raise AnalysisError("the network is singular", path=network.path)  # pragma: no cover - solve raised
-    out = []
-    for source in sources:
-        numerator = ring.zero
-        for out_label, c in output.observe:
-            for in_label, b in drive(source.nodes):
-                cofactor = solver.cofactor(index[in_label], index[out_label])
-                if cofactor is not None:
-                    numerator = numerator + cofactor * (c * b)
-        out.append(Solution(ring, variables, numerator, det, len(solver.memo)))
-    return tuple(out)
+    index, ring, variables, solver, det = expanded_system(network, backend)
+    return tuple(Solution(ring, variables, transfer_numerator(ring, solver, index, drive(source.nodes),
+                                                              output.observe), det, len(solver.memo))
+                 for source in sources)
 
 
 def output_noise_formula(circuit: Circuit, output: str, options: SmallSignalOptions | None = None,
