@@ -486,11 +486,9 @@ def multiply(*args: Expr) -> Expr:
             exponents[base] = add(exponents[base], exponent)
     if coeff == 0:
         return ZERO
-    if coeff == 1 and len(order) == 1 and len(flat) - len(order) <= 1:
-        # one canonical factor (times 1): e.g. the 1/x of every resistor stamp
-        single = next(a for a in flat if not isinstance(a, Number))
-        if _base_exponent(single)[1] is exponents[order[0]]:
-            return single
+    others = [arg for arg in flat if not isinstance(arg, Number)]
+    if coeff == 1 and len(others) == 1:
+        return others[0]  # one canonical factor times 1 (the 1/x of every resistor stamp) is already canonical
     factors: list[Expr] = []
     for base in order:
         factor = power(base, exponents[base])
