@@ -21,9 +21,7 @@ from typing import Any
 
 import numpy as np
 
-from rich.text import Text
-
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["frequency_renderables", "frequency_record", "frequency_markdown", "frequency_plot", "root_rows",
            "render_to_string"]
@@ -82,7 +80,7 @@ def frequency_renderables(result) -> list[Any]:
     summary.add_row("falls 3 dB at", engineering(response.corner, "Hz") if response.corner else "not in range")
     for label, roots in (("pole", response.poles), ("zero", response.zeros)):
         for where, what in root_rows(roots):
-            summary.add_row(Text(f"{label} ({what})"), Text(where))
+            summary.add_row(f"{label} ({what})", where)
     table = Table(title=f"{formula.label} versus frequency", title_justify="left")
     for column in ("f", "|value|", "phase (deg)"):
         table.add_column(column, justify="right")
@@ -108,17 +106,17 @@ def _approximation_table(result) -> Any:
     table = Table(title="coefficients of s cut to their dominant terms", title_justify="left", show_header=False)
     table.add_column("item")
     table.add_column("value")
-    table.add_row("approx", readable_text(a.expr) if kn + kd <= _SHOWN_TERMS else
+    table.add_row("approx", escaped(readable_text(a.expr), None) if kn + kd <= _SHOWN_TERMS else
                   f"{kn} + {kd} terms (see --json)")
     table.add_row("kept terms", f"{kn} of {an} / {kd} of {ad}")
-    table.add_row("worst error", Text(f"{100 * a.error:.3g} % (tolerance {100 * a.tolerance:.3g} %) at {a.where()}"))
+    table.add_row("worst error", escaped(f"{100 * a.error:.3g} % (tolerance {100 * a.tolerance:.3g} %) at {a.where()}", None))
     for what, form, error in (("dominant pole", a.dominant_pole, a.pole_error),
                               ("first zero", a.dominant_zero, a.zero_error)):
         if form is not None:
             value = form.evaluate({**result.bias.values})
-            table.add_row(what, Text(f"{readable_text(form.expr)}  = "
-                                     f"{engineering(abs(float(np.real(value))) / (2 * math.pi), 'Hz')}"
-                                     f" at bias; within {100 * error:.3g} % of the exact root over the ranges"))
+            table.add_row(what, escaped(f"{readable_text(form.expr)}  = "
+                                        f"{engineering(abs(float(np.real(value))) / (2 * math.pi), 'Hz')}"
+                                        f" at bias; within {100 * error:.3g} % of the exact root over the ranges", None))
     table.add_row("ranges", f"+-{100 * result.request.spread:g} % around the bias point, "
                             f"{a.band[0]:g}-{a.band[1]:g} Hz, {a.admitted} points")
     return table

@@ -21,9 +21,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from rich.text import Text
-
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["noise_renderables", "noise_record", "noise_markdown", "noise_plot", "render_to_string"]
 
@@ -51,12 +49,12 @@ def noise_renderables(result) -> list[Any]:
     for column in ("source", "kind", f"at output ({unit})", "root", "share"):
         ranked.add_column(column, justify="left" if column in ("source", "kind") else "right")
     for row in spectrum.ranked(at):
-        ranked.add_row(Text(row.name), Text(row.kind), f"{row.density:.4g}", _root(row.density, result), f"{100 * row.share:.1f} %")
+        ranked.add_row(escaped(row.name), row.kind, f"{row.density:.4g}", _root(row.density, result), f"{100 * row.share:.1f} %")
     devices = Table(title="by element", title_justify="left")
     for column in ("element", "kinds", f"at output ({unit})", "share"):
         devices.add_column(column, justify="left" if column in ("element", "kinds") else "right")
     for row in spectrum.by_element(at):
-        devices.add_row(Text(row.element), Text(row.kind), f"{row.density:.4g}", f"{100 * row.share:.1f} %")
+        devices.add_row(escaped(row.element), row.kind, f"{row.density:.4g}", f"{100 * row.share:.1f} %")
     totals = Table(title="totals", title_justify="left", show_header=False)
     totals.add_column("item")
     totals.add_column("value", justify="right")
@@ -91,13 +89,13 @@ def _closed_form_table(result) -> Any:
             f"{sum(term.low_frequency.nterms)} terms (see --json)"
         if leading and term.approximation is not None:
             shown += f"  ({100 * term.approximation.error:.2g} %)"
-        table.add_row(term.source.name, str(term.source.density), shown)
+        table.add_row(escaped(term.source.name), escaped(term.source.density, None), escaped(shown, None))
     total = formula.white_expr(leading) if _small(formula) else None
     if total is not None:
-        table.add_row("[bold]white total[/bold]", "", readable_text(total))
+        table.add_row("[bold]white total[/bold]", "", escaped(readable_text(total), None))
         flicker = formula.flicker_expr(leading)
         if flicker != 0:
-            table.add_row("[bold]1/f total[/bold]", "", readable_text(flicker))
+            table.add_row("[bold]1/f total[/bold]", "", escaped(readable_text(flicker), None))
     return table
 
 

@@ -20,7 +20,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from .console import CAUTION, engineering, render_to_string
+from .console import CAUTION, engineering, escaped, render_to_string
 
 __all__ = ["corner_table", "corner_renderables", "corner_record", "model_check_renderables", "model_check_record",
            "source_text", "render_to_string"]
@@ -69,7 +69,7 @@ def corner_table(points) -> Any:
     for corner, _ in points.points:
         table.add_column(corner or "as written", justify="right", no_wrap=True)
     for label, cells in _corner_rows(points):
-        table.add_row(label, *cells)
+        table.add_row(escaped(label), *cells)
     return table
 
 
@@ -104,7 +104,7 @@ def model_check_renderables(target, checks) -> list[Any]:
         for row in check.rows:
             unit = "V" if row.item == "node" else ("A" if row.unit == "A" else _UNITS.get(row.quantity, ""))
             show = (lambda v: f"{v:.6f}") if row.item == "node" else (lambda v: engineering(v, unit))
-            table.add_row(row.item, row.quantity, show(row.built_in), show(row.simulator), _relative_text(row.relative))
+            table.add_row(escaped(row.item), row.quantity, show(row.built_in), show(row.simulator), _relative_text(row.relative))
         out.append(table)
         if check.largest is not None:
             worst = check.largest

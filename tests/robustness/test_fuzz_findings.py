@@ -43,7 +43,7 @@ Vout out 0 2.5
 
 
 def test_element_names_that_look_like_markup_are_printed_as_written(tmp_path, monkeypatch, capsys):
-    for argv in (["bias", "deck.cir"], ["bias", "deck.cir", "--all"]):
+    for argv in (["bias", "deck.cir"], ["bias", "deck.cir", "--all"], ["noise", "deck.cir"]):
         status, out, err, _ = run_cli(tmp_path, monkeypatch, capsys, argv, {"deck.cir": MARKUP_NAMES})
         assert status == 0, err
         assert "Q2[/y]" in out
