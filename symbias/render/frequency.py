@@ -71,7 +71,7 @@ def frequency_renderables(result) -> list[Any]:
     from rich.table import Table
 
     response, formula = result.response, result.formula
-    header = (f"[bold]{result.target.title}[/bold]: {formula.label} over {result.request.start:g}-"
+    header = (f"[bold]{escaped(result.target.title)}[/bold]: {escaped(formula.label)} over {result.request.start:g}-"
               f"{result.request.stop:g} Hz at the bias point ({result.bias.temperature:g} degC)")
     summary = Table(title="at the bias point", title_justify="left", show_header=False)
     summary.add_column("item")
@@ -81,7 +81,7 @@ def frequency_renderables(result) -> list[Any]:
     for label, roots in (("pole", response.poles), ("zero", response.zeros)):
         for where, what in root_rows(roots):
             summary.add_row(f"{label} ({what})", where)
-    table = Table(title=f"{formula.label} versus frequency", title_justify="left")
+    table = Table(title=f"{escaped(formula.label)} versus frequency", title_justify="left")
     for column in ("f", "|value|", "phase (deg)"):
         table.add_column(column, justify="right")
     phase = response.phase

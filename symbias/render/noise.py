@@ -43,7 +43,7 @@ def noise_renderables(result) -> list[Any]:
     spectrum, request = result.spectrum, result.request
     at = spectrum.frequencies[spectrum.index(request.at)]
     unit = spectrum.output.unit
-    header = (f"[bold]{result.target.title}[/bold]: output noise {spectrum.output.label} at the bias point "
+    header = (f"[bold]{escaped(result.target.title)}[/bold]: output noise {escaped(spectrum.output.label)} at the bias point "
               f"({result.bias.temperature:g} degC)")
     ranked = Table(title=f"noise sources at {engineering(at, 'Hz')}, largest first", title_justify="left")
     for column in ("source", "kind", f"at output ({unit})", "root", "share"):
@@ -78,7 +78,7 @@ def _closed_form_table(result) -> Any:
 
     formula = result.formula
     leading = any(t.approximation is not None for t in formula.terms)
-    table = Table(title=f"closed forms: {formula.output.label} noise = sum of H(0)^2 S over the sources",
+    table = Table(title=f"closed forms: {escaped(formula.output.label)} noise = sum of H(0)^2 S over the sources",
                   title_justify="left")
     table.add_column("source")
     table.add_column("S (A^2/Hz)")
