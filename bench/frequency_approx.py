@@ -74,10 +74,14 @@ def _child(identifier: str, memory_gb: float) -> None:
 
     limit = int(memory_gb * (1 << 30))
     resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
+    from symbias.errors import SymbiasError
+
     try:
         record = measure(identifier)
     except MemoryError:
         record = {"case": identifier, "skipped": f"exact derivation needs more than {memory_gb:g} GB"}
+    except SymbiasError as err:  # a documented limit or analysis error: its cause, without file or advice
+        record = {"case": identifier, "skipped": "no exact result: " + err.reason.split(";")[0]}
     print(json.dumps(record))
 
 
@@ -90,8 +94,7 @@ def _run(identifier: str, timeout: float, memory_gb: float) -> dict:
     lines = done.stdout.strip().splitlines()
     if done.returncode != 0 or not lines:
         tail = (done.stderr.strip().splitlines() or ["no output"])[-1]
-        reason = tail.split("Error: ", 1)[-1].split(".toml: ", 1)[-1].split(";")[0]
-        return {"case": identifier, "skipped": "no exact result: " + reason}
+        return {"case": identifier, "skipped": "failed: " + tail[-200:]}
     return json.loads(lines[-1])
 
 
