@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import platform
 import subprocess
 import sys
@@ -14,9 +15,7 @@ print(keep_heap_headroom(10), keep_heap_headroom(1000), keep_heap_headroom(1000)
 """
 
 
-def _run(env_value: str | None) -> str:
-    import os
-
+def _run(env_value: str | None) -> list[str]:
     env = {k: v for k, v in os.environ.items() if k != "SYMBIAS_HEAP_PAD"}
     if env_value is not None:
         env["SYMBIAS_HEAP_PAD"] = env_value
